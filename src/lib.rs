@@ -1,0 +1,1 @@
+//! fitwright: calibration fits from TOML recipes.
