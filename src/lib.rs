@@ -1,1 +1,23 @@
-//! fitwright: calibration fits from TOML recipes.
+//! fitwright: calibration fits from reviewed TOML recipes.
+//!
+//! The pipeline, one module per stage: [`recipe`] (read and check the recipe) → [`data`] (load
+//! the measurements) → expression engine, linearizability analysis, fit, acceptance and
+//! reports. [`cli`] is the command line over it; `main.rs` only calls [`cli::main`].
+#![cfg_attr(not(test), deny(clippy::unwrap_used))]
+
+pub mod cli;
+pub mod data;
+pub mod error;
+pub mod hash;
+pub mod pipeline;
+pub mod recipe;
+pub mod recipes;
+pub mod source;
+
+pub use error::{Error, ErrorKind, Result};
+
+/// The caution of SPEC §12, shown in the README and every report.
+pub const CAUTION: &str = "Calibration results can feed decisions about safety, health and legal metrology. \
+This report is an aid to a qualified person's review; acceptance by this tool does not replace the \
+laboratory's documented procedure, its accreditation requirements (for example ISO/IEC 17025) or local \
+regulations, which prevail.";

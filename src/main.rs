@@ -1,1 +1,5 @@
-fn main() {}
+//! The `fitwright` binary: a thin shell over the library.
+
+fn main() {
+    std::process::exit(fitwright::cli::main());
+}

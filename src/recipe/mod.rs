@@ -1,0 +1,403 @@
+//! Recipes: one TOML file per calibration job (SPEC §2, §13).
+//!
+//! Loading happens in two steps, as in the rest of the pipeline: [`raw`] reads the TOML into a
+//! tree that keeps every span, and [`check`] validates that tree against the schema and builds
+//! the checked [`Recipe`] below, with paths resolved relative to the recipe file. Nothing after
+//! this module sees TOML.
+
+pub mod check;
+pub mod raw;
+mod section;
+
+use std::collections::BTreeMap;
+use std::ops::Range;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+use crate::error::{Error, Result};
+use crate::source::{Location, SourceFile};
+
+pub use check::check_recipe;
+
+/// A value together with the byte span it was read from in the recipe.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Spanned<T> {
+    pub value: T,
+    pub span: Range<usize>,
+}
+
+impl<T> Spanned<T> {
+    pub fn new(value: T, span: Range<usize>) -> Self {
+        Spanned { value, span }
+    }
+}
+
+/// A string value whose content can be located character by character (for carets inside
+/// equations): `content_start` is the byte offset of the first character of the decoded
+/// string in the recipe, when the TOML string had no escapes; `None` otherwise.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Text {
+    pub value: String,
+    pub span: Range<usize>,
+    pub content_start: Option<usize>,
+}
+
+impl Text {
+    /// The recipe span of a byte range inside the string's content (the whole string when
+    /// the content cannot be mapped exactly).
+    pub fn inner_span(&self, inner: Range<usize>) -> Range<usize> {
+        match self.content_start {
+            Some(start) => start + inner.start..start + inner.end.max(inner.start),
+            None => self.span.clone(),
+        }
+    }
+}
+
+/// A checked recipe.
+#[derive(Debug, Clone)]
+pub struct Recipe {
+    /// The recipe file, kept for error messages and hashing.
+    pub source: Arc<SourceFile>,
+    /// Folder of the recipe; relative paths inside it resolve against this.
+    pub dir: PathBuf,
+    /// SHA-256 of the recipe file's bytes, lower-case hex.
+    pub sha256: String,
+    pub name: Spanned<String>,
+    pub title: Option<String>,
+    pub notes: Option<String>,
+    pub data: DataSpec,
+    pub model: ModelSpec,
+    pub fit: FitSpec,
+    pub acceptance: Acceptance,
+    pub compare: Vec<Text>,
+    pub limits: LimitsSpec,
+    pub report: ReportSpec,
+}
+
+impl Recipe {
+    /// The location of a recipe span, for errors that point back into the recipe.
+    pub fn locate(&self, span: Range<usize>) -> Location {
+        self.source.locate(span)
+    }
+
+    /// An input error at a span of this recipe.
+    pub fn error_at(&self, span: Range<usize>, message: impl Into<String>) -> Error {
+        Error::input(message).at(self.locate(span))
+    }
+
+    /// The title, or the name when no title is given.
+    pub fn display_title(&self) -> &str {
+        self.title.as_deref().unwrap_or(&self.name.value)
+    }
+}
+
+/// Layout of delimited text files.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Format {
+    Csv,
+    Tsv,
+    Whitespace,
+}
+
+impl Format {
+    pub const NAMES: [&'static str; 3] = ["csv", "tsv", "whitespace"];
+
+    pub fn parse(name: &str) -> Option<Format> {
+        match name {
+            "csv" => Some(Format::Csv),
+            "tsv" => Some(Format::Tsv),
+            "whitespace" => Some(Format::Whitespace),
+            _ => None,
+        }
+    }
+
+    /// The format implied by a file extension: `.tsv` tab-separated, `.txt`/`.dat` whitespace,
+    /// anything else comma-separated.
+    pub fn from_extension(path: &Path) -> Format {
+        match path
+            .extension()
+            .and_then(|e| e.to_str())
+            .map(|e| e.to_ascii_lowercase())
+            .as_deref()
+        {
+            Some("tsv" | "tab") => Format::Tsv,
+            Some("txt" | "dat") => Format::Whitespace,
+            _ => Format::Csv,
+        }
+    }
+}
+
+/// One entry of `[data] files`: a glob pattern, or a single file pinned by its hash.
+#[derive(Debug, Clone)]
+pub struct FileSpec {
+    /// As written in the recipe.
+    pub pattern: String,
+    /// Resolved against the recipe's folder.
+    pub resolved: PathBuf,
+    /// Expected SHA-256 for a pinned file (`{ path = "…", sha256 = "…" }`).
+    pub sha256: Option<String>,
+    pub span: Range<usize>,
+}
+
+/// A data column chosen by header name or by 1-based position.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum ColumnRef {
+    Name(String),
+    Index(usize),
+}
+
+impl std::fmt::Display for ColumnRef {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            ColumnRef::Name(n) => write!(f, "`{n}`"),
+            ColumnRef::Index(i) => write!(f, "column {i}"),
+        }
+    }
+}
+
+/// What to do with empty, NaN or infinite cells (SPEC §13).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Missing {
+    /// Such a cell is an input error (default).
+    Error,
+    /// The row is skipped and listed in the report.
+    Skip,
+}
+
+/// `[data]`.
+#[derive(Debug, Clone)]
+pub struct DataSpec {
+    pub files: Vec<FileSpec>,
+    pub files_span: Range<usize>,
+    pub format: Option<Format>,
+    pub delimiter: Option<u8>,
+    pub decimal_comma: bool,
+    pub comment: Option<String>,
+    pub header: bool,
+    pub skip_rows: usize,
+    /// Model variable → column, in recipe order.
+    pub columns: Vec<(Spanned<String>, Spanned<ColumnRef>)>,
+    pub where_: Option<Text>,
+    pub units: BTreeMap<String, String>,
+    pub missing: Missing,
+}
+
+impl DataSpec {
+    /// The unit of a variable, or "" when none is given.
+    pub fn unit(&self, var: &str) -> &str {
+        self.units.get(var).map_or("", String::as_str)
+    }
+}
+
+/// One entry of `[model.parameters]`.
+#[derive(Debug, Clone)]
+pub struct ParamSpec {
+    pub name: Spanned<String>,
+    pub start: Option<f64>,
+    pub min: Option<f64>,
+    pub max: Option<f64>,
+    pub fixed: Option<f64>,
+    pub unit: Option<String>,
+}
+
+/// `[model]`: the equation (typed, or from a preset) and its parameters.
+#[derive(Debug, Clone)]
+pub struct ModelSpec {
+    pub equation: Option<Text>,
+    pub preset: Option<Spanned<String>>,
+    pub parameters: Vec<ParamSpec>,
+    /// Span of the `[model]` table, for errors about the model as a whole.
+    pub span: Range<usize>,
+}
+
+/// `[fit] method` (SPEC §5).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Method {
+    Auto,
+    Linear,
+    Linearized,
+    Nonlinear,
+}
+
+impl Method {
+    pub const NAMES: [&'static str; 4] = ["auto", "linear", "linearized", "nonlinear"];
+    pub fn name(self) -> &'static str {
+        match self {
+            Method::Auto => "auto",
+            Method::Linear => "linear",
+            Method::Linearized => "linearized",
+            Method::Nonlinear => "nonlinear",
+        }
+    }
+}
+
+/// `[fit] transform`.
+#[derive(Debug, Clone, PartialEq)]
+pub enum TransformSpec {
+    Auto,
+    None,
+    Expr(Text),
+}
+
+/// `[fit] uncertainty` (SPEC §2).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum UncertaintyMode {
+    /// Weights are relative; the covariance is scaled by s².
+    Residuals,
+    /// Weights are 1/σ² of known σ; the covariance is not scaled; a χ² test is reported.
+    Weights,
+}
+
+/// `[fit]`.
+#[derive(Debug, Clone)]
+pub struct FitSpec {
+    pub method: Method,
+    pub transform: TransformSpec,
+    pub weights: Option<Text>,
+    pub confidence: f64,
+    pub uncertainty: UncertaintyMode,
+    pub drop_invalid: bool,
+    /// Delta-method weights for the linearized fit (`linearized_weights = "delta"`, default)
+    /// or the plain unweighted transformed fit (`"none"`).
+    pub linearized_delta_weights: bool,
+    pub groups: Option<Spanned<String>>,
+    pub average_replicates: bool,
+    /// Relative tolerance of the Levenberg–Marquardt stop rules (SPEC §13), default 1e-12.
+    pub tolerance: f64,
+    pub span: Range<usize>,
+}
+
+/// Per-parameter criteria under `[acceptance.parameters.<name>]`.
+#[derive(Debug, Clone, Default)]
+pub struct ParamCriteria {
+    pub min: Option<Spanned<f64>>,
+    pub max: Option<Spanned<f64>>,
+    pub rel_std_error_max: Option<Spanned<f64>>,
+}
+
+/// Drift criteria under `[acceptance.drift.<name>]` (SPEC §9).
+#[derive(Debug, Clone, Default)]
+pub struct DriftCriteria {
+    pub max_rel_change: Option<Spanned<f64>>,
+    pub max_abs_change: Option<Spanned<f64>>,
+}
+
+/// One `[[acceptance.points]]` entry: a reading the curve must reproduce.
+#[derive(Debug, Clone)]
+pub struct PointCheck {
+    pub at: Vec<(String, f64)>,
+    pub expect: f64,
+    pub tolerance: f64,
+    pub span: Range<usize>,
+}
+
+/// `[acceptance]` (SPEC §7). Each present key becomes one criteria row.
+#[derive(Debug, Clone, Default)]
+pub struct Acceptance {
+    /// Global criteria in recipe order: (key, limit).
+    pub global: Vec<(Spanned<String>, Spanned<f64>)>,
+    pub parameters: Vec<(Spanned<String>, ParamCriteria)>,
+    pub drift: Vec<(Spanned<String>, DriftCriteria)>,
+    pub points: Vec<PointCheck>,
+}
+
+impl Acceptance {
+    /// The global keys SPEC §7 defines.
+    pub const GLOBAL_KEYS: [&'static str; 12] = [
+        "r_squared_min",
+        "adj_r_squared_min",
+        "std_error_max",
+        "max_abs_residual",
+        "max_rel_residual",
+        "runs_p_min",
+        "normality_p_min",
+        "durbin_watson_min",
+        "durbin_watson_max",
+        "lack_of_fit_p_min",
+        "min_points",
+        "max_cooks_distance",
+    ];
+
+    pub fn is_empty(&self) -> bool {
+        self.global.is_empty()
+            && self.parameters.is_empty()
+            && self.drift.is_empty()
+            && self.points.is_empty()
+    }
+}
+
+/// `[limits]`: detection and quantification limits of straight-line calibrations (SPEC §13).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LimitsSigma {
+    /// The residual standard deviation of the line (default).
+    Residual,
+    /// The standard error of the intercept.
+    Intercept,
+}
+
+#[derive(Debug, Clone)]
+pub struct LimitsSpec {
+    pub sigma: LimitsSigma,
+}
+
+/// Output formats of a run (SPEC §8).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum ReportFormat {
+    Html,
+    Md,
+    Json,
+}
+
+impl ReportFormat {
+    pub const NAMES: [&'static str; 3] = ["html", "md", "json"];
+    pub fn parse(name: &str) -> Option<ReportFormat> {
+        match name {
+            "html" => Some(ReportFormat::Html),
+            "md" => Some(ReportFormat::Md),
+            "json" => Some(ReportFormat::Json),
+            _ => None,
+        }
+    }
+}
+
+/// `[report]`.
+#[derive(Debug, Clone)]
+pub struct ReportSpec {
+    pub formats: Vec<ReportFormat>,
+    /// The output folder with `{name}` expanded, resolved against the recipe's folder; `None`
+    /// means the default `reports/{name}` under the working directory (SPEC §13).
+    pub dir: Option<PathBuf>,
+    pub signoff: Vec<String>,
+    pub templates: Option<PathBuf>,
+}
+
+/// Read and check one recipe file.
+pub fn load(path: &Path) -> Result<Recipe> {
+    let bytes = std::fs::read(path).map_err(|e| {
+        Error::input(format!("cannot read the recipe: {e}"))
+            .in_file(path)
+            .help("check the path; recipes are TOML files")
+    })?;
+    let sha256 = crate::hash::sha256_hex(&bytes);
+    let text = match String::from_utf8(bytes) {
+        Ok(t) => t,
+        Err(e) => {
+            let offset = e.utf8_error().valid_up_to();
+            let lossy = String::from_utf8_lossy(e.as_bytes()).into_owned();
+            let source = SourceFile::new(path, lossy);
+            return Err(Error::input("the recipe is not valid UTF-8")
+                .at(source.locate(offset..offset + 1))
+                .help("save the recipe as UTF-8"));
+        }
+    };
+    let text = text
+        .strip_prefix('\u{feff}')
+        .map(str::to_string)
+        .unwrap_or(text);
+    let source = Arc::new(SourceFile::new(path, text));
+    let raw = raw::RawRecipe::parse(source)?;
+    check_recipe(raw, sha256)
+}
