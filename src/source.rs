@@ -77,7 +77,7 @@ mod tests {
     #[test]
     fn locate_counts_lines_and_characters() {
         let text = "a = 1\r\nβeta = \"x\"\n";
-        let loc = locate_in(Path::new("r.toml"), text, 14..17);
+        let loc = locate_in(Path::new("r.toml"), text, 15..18);
         assert_eq!((loc.line, loc.column, loc.width), (2, 8, 3));
         assert_eq!(loc.line_text, "βeta = \"x\"");
     }
