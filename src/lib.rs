@@ -5,10 +5,12 @@
 //! reports. [`cli`] is the command line over it; `main.rs` only calls [`cli::main`].
 #![cfg_attr(not(test), deny(clippy::unwrap_used))]
 
+pub mod acceptance;
 pub mod cli;
 pub mod data;
 pub mod error;
 pub mod hash;
+pub mod history;
 pub mod pipeline;
 pub mod recipe;
 pub mod recipes;
