@@ -118,6 +118,9 @@ pub struct Baseline {
     pub params: Vec<(String, f64)>,
 }
 
+/// The curve's value at a setting of the predictors, or why it cannot be computed.
+pub type ValueAt<'a> = &'a dyn Fn(&[(String, f64)]) -> Result<f64, String>;
+
 /// Everything the criteria are judged on.
 pub struct Measures<'a> {
     pub n: usize,
@@ -141,7 +144,7 @@ pub struct Measures<'a> {
     /// `None` when there is no earlier accepted run.
     pub baseline: Option<Baseline>,
     /// The curve's value at a setting of the predictors (for `points`).
-    pub value_at: &'a dyn Fn(&[(String, f64)]) -> Result<f64, String>,
+    pub value_at: ValueAt<'a>,
 }
 
 /// Format a number for the criteria table: up to 6 significant digits, no trailing noise.
@@ -443,7 +446,7 @@ mod tests {
         Spanned::new(v, 0..0)
     }
 
-    fn measures(f: &dyn Fn(&[(String, f64)]) -> Result<f64, String>) -> Measures<'_> {
+    fn measures(f: ValueAt<'_>) -> Measures<'_> {
         Measures {
             n: 12,
             converged: true,
