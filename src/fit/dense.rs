@@ -1,0 +1,541 @@
+//! Dense kernels shared by the linear fit, Levenberg–Marquardt and the covariance:
+//! Householder QR in place, the damped triangular solve, column scaling and the rank test.
+//!
+//! Everything here works on caller-owned buffers so that the nonlinear inner loop does not
+//! allocate. Sources (from memory): Golub & Van Loan, *Matrix Computations*, 3rd ed., §5.1
+//! (Householder vectors) and §5.3 (least squares by QR); Moré, Garbow & Hillstrom, *User guide
+//! for MINPACK-1*, ANL-80-74 (1980), routine `qrsolv` for the damped solve.
+
+use nalgebra::DMatrix;
+
+/// Euclidean norm of `x`, scaled so that squares neither overflow nor underflow
+/// (the idea of LAPACK's `dnrm2`, from memory).
+pub(crate) fn norm2(x: &[f64]) -> f64 {
+    let scale = x.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
+    if scale == 0.0 || !scale.is_finite() {
+        return scale;
+    }
+    let inv = 1.0 / scale;
+    let sum: f64 = x.iter().map(|v| (v * inv) * (v * inv)).sum();
+    scale * sum.sqrt()
+}
+
+/// Householder QR of the `n × p` matrix `a` (n ≥ p) in place, LAPACK `dgeqr2` layout:
+/// on return the upper triangle of the first `p` rows holds R, the part below the diagonal of
+/// column j holds the Householder vector vⱼ (with implicit vⱼ[j] = 1), and `tau[j]` its factor,
+/// so that Hⱼ = I − τⱼ·vⱼ·vⱼᵀ and Qᵀ = H_{p−1}···H₀.
+///
+/// Each vⱼ maps the column x to (β, 0, …, 0) with β = −sign(x₀)·‖x‖, which avoids
+/// cancellation (Golub & Van Loan §5.1.2, from memory). A column already zero below the
+/// diagonal gets τ = 0 (H = I).
+pub(crate) fn householder_qr_in_place(a: &mut DMatrix<f64>, tau: &mut [f64]) {
+    let (n, p) = a.shape();
+    debug_assert!(n >= p && tau.len() >= p);
+    for j in 0..p {
+        let alpha = a[(j, j)];
+        let tail_norm = {
+            let col = a.column(j);
+            norm2(&col.as_slice()[j + 1..])
+        };
+        if tail_norm == 0.0 {
+            tau[j] = 0.0;
+            continue;
+        }
+        let beta = -alpha.signum() * alpha.hypot(tail_norm);
+        let t = (beta - alpha) / beta;
+        let inv = 1.0 / (alpha - beta);
+        {
+            let mut col = a.column_mut(j);
+            let s = col.as_mut_slice();
+            for v in &mut s[j + 1..] {
+                *v *= inv;
+            }
+            s[j] = beta;
+        }
+        tau[j] = t;
+        // Apply Hⱼ to the remaining columns.
+        for k in j + 1..p {
+            let (vj, ck) = column_pair(a, j, k);
+            let mut s = ck[j];
+            for i in j + 1..n {
+                s += vj[i] * ck[i];
+            }
+            s *= t;
+            ck[j] -= s;
+            for i in j + 1..n {
+                ck[i] -= s * vj[i];
+            }
+        }
+    }
+}
+
+/// Borrow column `j` immutably and column `k > j` mutably (column-major storage).
+fn column_pair(a: &mut DMatrix<f64>, j: usize, k: usize) -> (&[f64], &mut [f64]) {
+    debug_assert!(j < k);
+    let n = a.nrows();
+    let data = a.as_mut_slice();
+    let (left, right) = data.split_at_mut(k * n);
+    (&left[j * n..(j + 1) * n], &mut right[..n])
+}
+
+/// b ← Qᵀ·b for a factorization from [`householder_qr_in_place`].
+pub(crate) fn apply_qt(qr: &DMatrix<f64>, tau: &[f64], b: &mut [f64]) {
+    let (n, p) = qr.shape();
+    for j in 0..p {
+        if tau[j] == 0.0 {
+            continue;
+        }
+        let v = &qr.as_slice()[j * n..(j + 1) * n];
+        let mut s = b[j];
+        for i in j + 1..n {
+            s += v[i] * b[i];
+        }
+        s *= tau[j];
+        b[j] -= s;
+        for i in j + 1..n {
+            b[i] -= s * v[i];
+        }
+    }
+}
+
+/// b ← Q·b for a factorization from [`householder_qr_in_place`] (Q = H₀·H₁···H_{p−1}).
+pub(crate) fn apply_q(qr: &DMatrix<f64>, tau: &[f64], b: &mut [f64]) {
+    let (n, p) = qr.shape();
+    for j in (0..p).rev() {
+        if tau[j] == 0.0 {
+            continue;
+        }
+        let v = &qr.as_slice()[j * n..(j + 1) * n];
+        let mut s = b[j];
+        for i in j + 1..n {
+            s += v[i] * b[i];
+        }
+        s *= tau[j];
+        b[j] -= s;
+        for i in j + 1..n {
+            b[i] -= s * v[i];
+        }
+    }
+}
+
+/// Solve Rᵀ·x = b by forward substitution (R as in [`solve_upper`]).
+pub(crate) fn solve_upper_transposed(r: &DMatrix<f64>, b: &[f64], x: &mut [f64]) -> bool {
+    let p = r.ncols();
+    for i in 0..p {
+        let mut s = b[i];
+        for k in 0..i {
+            s -= r[(k, i)] * x[k];
+        }
+        let d = r[(i, i)];
+        if d == 0.0 {
+            return false;
+        }
+        x[i] = s / d;
+    }
+    true
+}
+
+/// Solve R·x = b by back substitution, R the upper triangle of the first p rows of `r`.
+/// Returns false (x untouched past the failure) when a diagonal entry is zero.
+pub(crate) fn solve_upper(r: &DMatrix<f64>, b: &[f64], x: &mut [f64]) -> bool {
+    let p = r.ncols();
+    for i in (0..p).rev() {
+        let mut s = b[i];
+        for k in i + 1..p {
+            s -= r[(i, k)] * x[k];
+        }
+        let d = r[(i, i)];
+        if d == 0.0 {
+            return false;
+        }
+        x[i] = s / d;
+    }
+    true
+}
+
+/// Buffers for [`damped_solve`], allocated once per fit.
+#[allow(dead_code)] // used by fit::lm, the next step
+#[derive(Debug, Clone)]
+pub(crate) struct DampedWork {
+    s: DMatrix<f64>,
+    sdiag: Vec<f64>,
+    z: Vec<f64>,
+}
+
+#[allow(dead_code)]
+impl DampedWork {
+    pub(crate) fn new(p: usize) -> Self {
+        DampedWork {
+            s: DMatrix::zeros(p, p),
+            sdiag: vec![0.0; p],
+            z: vec![0.0; p],
+        }
+    }
+}
+
+/// Solve the damped least-squares problem
+/// `min ‖[R; √λ·D]·x − [qtb; 0]‖` for upper-triangular R (the first p rows of `qr`),
+/// diagonal D = `diag` and the first p entries of Qᵀb in `qtb`.
+///
+/// With J = Q·R this is exactly the least-squares solution of the augmented system
+/// `[J; √λ·D]·x ≈ [b; 0]`, i.e. the Levenberg–Marquardt step, obtained by orthogonal
+/// transformations only (never by forming JᵀJ + λ·DᵀD). The √λ·D rows are eliminated
+/// against R by Givens rotations, as in MINPACK's `qrsolv` (Moré, Garbow & Hillstrom,
+/// ANL-80-74, from memory). Returns false when the reduced triangle is singular
+/// (only possible for λ = 0 and rank-deficient R).
+#[allow(dead_code)]
+pub(crate) fn damped_solve(
+    qr: &DMatrix<f64>,
+    diag: &[f64],
+    lambda: f64,
+    qtb: &[f64],
+    work: &mut DampedWork,
+    x: &mut [f64],
+) -> bool {
+    let p = qr.ncols();
+    let sqrt_lambda = lambda.sqrt();
+    let s = &mut work.s;
+    for j in 0..p {
+        for i in 0..p {
+            s[(i, j)] = if i <= j { qr[(i, j)] } else { 0.0 };
+        }
+    }
+    work.z[..p].copy_from_slice(&qtb[..p]);
+    for j in 0..p {
+        let dj = sqrt_lambda * diag[j];
+        if dj == 0.0 {
+            continue;
+        }
+        for v in &mut work.sdiag[j..p] {
+            *v = 0.0;
+        }
+        work.sdiag[j] = dj;
+        // The extra row starts with right-hand side 0.
+        let mut qtbpj = 0.0;
+        for k in j..p {
+            let sk = work.sdiag[k];
+            if sk == 0.0 {
+                continue;
+            }
+            let rkk = s[(k, k)];
+            let (cos, sin) = givens(rkk, sk);
+            s[(k, k)] = cos * rkk + sin * sk;
+            let zk = work.z[k];
+            work.z[k] = cos * zk + sin * qtbpj;
+            qtbpj = -sin * zk + cos * qtbpj;
+            for i in k + 1..p {
+                let ski = s[(k, i)];
+                let di = work.sdiag[i];
+                s[(k, i)] = cos * ski + sin * di;
+                work.sdiag[i] = -sin * ski + cos * di;
+            }
+        }
+    }
+    let ok = solve_upper(s, &work.z, x);
+    ok && x[..p].iter().all(|v| v.is_finite())
+}
+
+/// Givens rotation (c, s) with c·a + s·b = r, −s·a + c·b = 0, computed without overflow.
+#[allow(dead_code)]
+fn givens(a: f64, b: f64) -> (f64, f64) {
+    if b == 0.0 {
+        (1.0, 0.0)
+    } else if b.abs() > a.abs() {
+        let t = a / b;
+        let s = 1.0 / (1.0 + t * t).sqrt();
+        (s * t, s)
+    } else {
+        let t = b / a;
+        let c = 1.0 / (1.0 + t * t).sqrt();
+        (c, c * t)
+    }
+}
+
+/// Result of the rank test on a column-scaled matrix.
+#[derive(Debug, Clone)]
+pub(crate) enum RankCheck {
+    /// Full column rank; the 2-norm condition number of the scaled matrix.
+    Full { condition: f64 },
+    /// Rank deficient: the (0-based) columns involved in the near-null space.
+    Deficient { columns: Vec<usize>, condition: f64 },
+}
+
+/// Rank test on the column-scaled matrix A·D⁻¹ through the singular values of its R factor
+/// (A = Q·R, so A and R share singular values and right singular vectors).
+///
+/// Tolerance (SPEC §13): σₖ ≤ max(n, p)·ε·σ_max counts as zero — the usual numerical-rank
+/// threshold (Golub & Van Loan §5.5.8, from memory). The columns named as collinear are
+/// those with a component of at least 0.1·max in a right singular vector of a zero σ
+/// (0.1 is a common-practice reporting threshold, not from a source).
+pub(crate) fn rank_check(r: &DMatrix<f64>, n: usize) -> RankCheck {
+    let p = r.ncols();
+    let mut upper = DMatrix::zeros(p, p);
+    for j in 0..p {
+        for i in 0..=j {
+            upper[(i, j)] = r[(i, j)];
+        }
+    }
+    let max_iter = 1000 * p.max(1);
+    let Some(svd) = nalgebra::SVD::try_new_unordered(upper, false, true, f64::EPSILON, max_iter)
+    else {
+        // The SVD did not converge: report every column rather than guessing.
+        return RankCheck::Deficient {
+            columns: (0..p).collect(),
+            condition: f64::INFINITY,
+        };
+    };
+    let sv = &svd.singular_values;
+    let smax = sv.iter().fold(0.0_f64, |m, v| m.max(*v));
+    let smin = sv.iter().fold(f64::INFINITY, |m, v| m.min(*v));
+    let condition = if smin > 0.0 {
+        smax / smin
+    } else {
+        f64::INFINITY
+    };
+    let tol = (n.max(p) as f64) * f64::EPSILON * smax;
+    let mut columns = Vec::new();
+    if let Some(v_t) = svd.v_t.as_ref() {
+        for (k, &s) in sv.iter().enumerate() {
+            if s <= tol || smax == 0.0 {
+                let row = v_t.row(k);
+                let big = row.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
+                for (j, v) in row.iter().enumerate() {
+                    if v.abs() >= 0.1 * big && !columns.contains(&j) {
+                        columns.push(j);
+                    }
+                }
+            }
+        }
+    }
+    if columns.is_empty() {
+        RankCheck::Full { condition }
+    } else {
+        columns.sort_unstable();
+        RankCheck::Deficient { columns, condition }
+    }
+}
+
+/// (RᵀR)⁻¹ = R⁻¹·R⁻ᵀ from the upper triangle of the first p rows of `r`, computed by
+/// inverting the triangle (never by inverting RᵀR). None when a diagonal entry is zero.
+pub(crate) fn inverse_gram_from_r(r: &DMatrix<f64>) -> Option<DMatrix<f64>> {
+    let p = r.ncols();
+    // Rinv is upper triangular; column k solves R·x = e_k.
+    let mut rinv = DMatrix::zeros(p, p);
+    for k in 0..p {
+        for i in (0..=k).rev() {
+            let mut s = if i == k { 1.0 } else { 0.0 };
+            for m in i + 1..=k {
+                s -= r[(i, m)] * rinv[(m, k)];
+            }
+            let d = r[(i, i)];
+            if d == 0.0 {
+                return None;
+            }
+            rinv[(i, k)] = s / d;
+        }
+    }
+    let mut out = DMatrix::zeros(p, p);
+    for i in 0..p {
+        for j in i..p {
+            // (R⁻¹R⁻ᵀ)ᵢⱼ = Σₘ Rinv[i,m]·Rinv[j,m], m ≥ max(i, j) = j.
+            let mut s = 0.0;
+            for m in j..p {
+                s += rinv[(i, m)] * rinv[(j, m)];
+            }
+            out[(i, j)] = s;
+            out[(j, i)] = s;
+        }
+    }
+    Some(out)
+}
+
+/// A column-scaled Householder QR of an `n × p` matrix with the rank test done:
+/// A·D⁻¹ = Q·R with D = diag(‖aⱼ‖).
+#[derive(Debug, Clone)]
+pub(crate) struct ScaledQr {
+    /// Factored A·D⁻¹ (layout of [`householder_qr_in_place`]).
+    pub qr: DMatrix<f64>,
+    pub tau: Vec<f64>,
+    /// Column norms D.
+    pub scale: Vec<f64>,
+    /// 2-norm condition number of A·D⁻¹.
+    pub condition: f64,
+}
+
+/// Why a scaled QR could not be used.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum ScaledQrError {
+    /// Column j is zero (on every row with non-zero weight).
+    ZeroColumn(usize),
+    /// The listed columns are linearly dependent within the rank tolerance.
+    Deficient { columns: Vec<usize>, condition: f64 },
+}
+
+/// Scale the columns of `a` to unit norm, factor by Householder QR and test the rank.
+pub(crate) fn scaled_qr(mut a: DMatrix<f64>) -> Result<ScaledQr, ScaledQrError> {
+    let (n, p) = a.shape();
+    let mut scale = vec![0.0; p];
+    for j in 0..p {
+        let d = norm2(a.column(j).as_slice());
+        if d == 0.0 {
+            return Err(ScaledQrError::ZeroColumn(j));
+        }
+        scale[j] = d;
+        for v in a.column_mut(j).iter_mut() {
+            *v /= d;
+        }
+    }
+    let mut tau = vec![0.0; p];
+    householder_qr_in_place(&mut a, &mut tau);
+    match rank_check(&a, n) {
+        RankCheck::Full { condition } => Ok(ScaledQr {
+            qr: a,
+            tau,
+            scale,
+            condition,
+        }),
+        RankCheck::Deficient { columns, condition } => {
+            Err(ScaledQrError::Deficient { columns, condition })
+        }
+    }
+}
+
+impl ScaledQr {
+    /// Unscaled (AᵀA)⁻¹ = D⁻¹·R⁻¹·R⁻ᵀ·D⁻¹.
+    pub(crate) fn inverse_gram(&self) -> Option<DMatrix<f64>> {
+        let mut g = inverse_gram_from_r(&self.qr)?;
+        let p = g.ncols();
+        for j in 0..p {
+            for i in 0..p {
+                g[(i, j)] /= self.scale[i] * self.scale[j];
+            }
+        }
+        Some(g)
+    }
+
+    /// Least-squares solution of A·x ≈ b (b has n entries; used as scratch space).
+    pub(crate) fn solve(&self, b: &mut [f64], x: &mut [f64]) -> bool {
+        apply_qt(&self.qr, &self.tau, b);
+        let p = self.qr.ncols();
+        if !solve_upper(&self.qr, &b[..p], &mut x[..p]) {
+            return false;
+        }
+        for (xj, d) in x.iter_mut().zip(&self.scale) {
+            *xj /= d;
+        }
+        true
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn example() -> DMatrix<f64> {
+        // An arbitrary well-conditioned 5×3 matrix (invented).
+        DMatrix::from_row_slice(
+            5,
+            3,
+            &[
+                1.0, 2.0, 0.5, 1.0, -1.0, 2.0, 1.0, 0.3, -1.5, 1.0, 4.0, 0.0, 1.0, -2.0, 1.0,
+            ],
+        )
+    }
+
+    #[test]
+    fn householder_qr_reproduces_the_matrix() {
+        let a = example();
+        let mut qr = a.clone();
+        let mut tau = vec![0.0; 3];
+        householder_qr_in_place(&mut qr, &mut tau);
+        // Rebuild each column a_k = Q·r_k by applying H₀…H_{p−1} in reverse to r_k.
+        for k in 0..3 {
+            let mut v: Vec<f64> = (0..5)
+                .map(|i| if i <= k { qr[(i, k)] } else { 0.0 })
+                .collect();
+            for j in (0..3).rev() {
+                let mut s = v[j];
+                for i in j + 1..5 {
+                    s += qr[(i, j)] * v[i];
+                }
+                s *= tau[j];
+                v[j] -= s;
+                for i in j + 1..5 {
+                    v[i] -= s * qr[(i, j)];
+                }
+            }
+            for i in 0..5 {
+                assert!((v[i] - a[(i, k)]).abs() < 1e-14, "({i},{k})");
+            }
+        }
+    }
+
+    #[test]
+    fn damped_solve_matches_the_augmented_least_squares_solution() {
+        let a = example();
+        let b = [1.0, 2.0, -1.0, 0.5, 3.0];
+        let diag = [2.0, 0.5, 1.5];
+        let lambda = 0.7;
+        let mut qr = a.clone();
+        let mut tau = vec![0.0; 3];
+        householder_qr_in_place(&mut qr, &mut tau);
+        let mut qtb = b.to_vec();
+        apply_qt(&qr, &tau, &mut qtb);
+        let mut work = DampedWork::new(3);
+        let mut x = [0.0; 3];
+        assert!(damped_solve(&qr, &diag, lambda, &qtb, &mut work, &mut x));
+        // Independent check: the augmented 8×3 system solved by nalgebra's SVD.
+        let mut aug = DMatrix::zeros(8, 3);
+        let mut rhs = nalgebra::DVector::zeros(8);
+        for i in 0..5 {
+            for j in 0..3 {
+                aug[(i, j)] = a[(i, j)];
+            }
+            rhs[i] = b[i];
+        }
+        for j in 0..3 {
+            aug[(5 + j, j)] = lambda.sqrt() * diag[j];
+        }
+        let svd = aug.svd(true, true);
+        let want = svd.solve(&rhs, 1e-14).expect("full-rank test matrix");
+        for j in 0..3 {
+            assert!(
+                (x[j] - want[j]).abs() < 1e-13,
+                "x[{j}] = {} vs {}",
+                x[j],
+                want[j]
+            );
+        }
+    }
+
+    #[test]
+    fn rank_check_names_the_dependent_columns() {
+        // Column 2 = column 0 + column 1, column 3 independent.
+        let a = DMatrix::from_row_slice(
+            4,
+            4,
+            &[
+                1.0, 0.0, 1.0, 3.0, 0.0, 1.0, 1.0, -1.0, 1.0, 1.0, 2.0, 0.0, 2.0, -1.0, 1.0, 5.0,
+            ],
+        );
+        match scaled_qr(a) {
+            Err(ScaledQrError::Deficient { columns, .. }) => assert_eq!(columns, vec![0, 1, 2]),
+            other => panic!("expected rank deficiency, got {other:?}"),
+        }
+    }
+
+    #[test]
+    fn inverse_gram_equals_the_inverse_of_ata() {
+        let a = example();
+        let sq = scaled_qr(a.clone()).expect("full rank");
+        let g = sq.inverse_gram().expect("non-singular");
+        let ata = a.transpose() * &a;
+        let prod = &ata * &g;
+        for i in 0..3 {
+            for j in 0..3 {
+                let want = if i == j { 1.0 } else { 0.0 };
+                assert!((prod[(i, j)] - want).abs() < 1e-13);
+            }
+        }
+    }
+}
