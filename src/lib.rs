@@ -16,6 +16,7 @@ pub mod history;
 pub mod pipeline;
 pub mod recipe;
 pub mod recipes;
+pub mod result;
 pub mod source;
 
 pub use error::{Error, ErrorKind, Result};
