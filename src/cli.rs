@@ -26,6 +26,17 @@ enum Command {
         /// Recipe files or folders (walked for *.toml). Default: recipes/
         paths: Vec<PathBuf>,
     },
+    /// Write a commented starter recipe NAME.toml in the current folder.
+    Init {
+        /// Recipe name ([a-z0-9._-]+); also the file name.
+        name: String,
+        /// Start from a built-in model (see `fitwright models`).
+        #[arg(long)]
+        preset: Option<String>,
+        /// A data file whose header gives the columns.
+        #[arg(long)]
+        data: Option<PathBuf>,
+    },
 }
 
 /// Entry point of the binary; returns the process exit code.
@@ -40,6 +51,7 @@ pub fn main() -> i32 {
     };
     let result = match cli.command {
         Command::Check { paths } => check(&default_paths(paths)),
+        Command::Init { name, preset, data } => init(&name, preset.as_deref(), data.as_deref()),
     };
     match result {
         Ok(code) => code,
@@ -85,4 +97,19 @@ fn check(paths: &[PathBuf]) -> Result<i32> {
 /// Print an error the way the command line does (used by tests of messages).
 pub fn render_error(e: &Error) -> String {
     e.to_string()
+}
+
+/// `fitwright init`.
+fn init(name: &str, preset: Option<&str>, data: Option<&std::path::Path>) -> Result<i32> {
+    let model = match preset {
+        None => crate::init::StarterModel::straight_line(),
+        Some(p) => crate::init::starter_from_preset(p)?,
+    };
+    let path = crate::init::write_starter(std::path::Path::new("."), name, &model, data)?;
+    println!(
+        "wrote {}; edit the TODO lines, then run `fitwright check {}`",
+        path.display(),
+        path.display()
+    );
+    Ok(0)
 }
