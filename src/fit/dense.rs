@@ -154,7 +154,6 @@ pub(crate) fn solve_upper(r: &DMatrix<f64>, b: &[f64], x: &mut [f64]) -> bool {
 }
 
 /// Buffers for [`damped_solve`], allocated once per fit.
-#[allow(dead_code)] // used by fit::lm, the next step
 #[derive(Debug, Clone)]
 pub(crate) struct DampedWork {
     s: DMatrix<f64>,
@@ -162,7 +161,6 @@ pub(crate) struct DampedWork {
     z: Vec<f64>,
 }
 
-#[allow(dead_code)]
 impl DampedWork {
     pub(crate) fn new(p: usize) -> Self {
         DampedWork {
@@ -183,7 +181,6 @@ impl DampedWork {
 /// against R by Givens rotations, as in MINPACK's `qrsolv` (Moré, Garbow & Hillstrom,
 /// ANL-80-74, from memory). Returns false when the reduced triangle is singular
 /// (only possible for λ = 0 and rank-deficient R).
-#[allow(dead_code)]
 pub(crate) fn damped_solve(
     qr: &DMatrix<f64>,
     diag: &[f64],
@@ -236,7 +233,6 @@ pub(crate) fn damped_solve(
 }
 
 /// Givens rotation (c, s) with c·a + s·b = r, −s·a + c·b = 0, computed without overflow.
-#[allow(dead_code)]
 fn givens(a: f64, b: f64) -> (f64, f64) {
     if b == 0.0 {
         (1.0, 0.0)

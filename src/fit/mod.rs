@@ -15,4 +15,5 @@
 pub mod covariance;
 mod dense;
 pub mod linear;
+pub mod lm;
 pub mod strd;

@@ -1,0 +1,1027 @@
+//! Levenberg–Marquardt for weighted nonlinear least squares with an exact Jacobian.
+//!
+//! Problem: minimise `SSR(θ) = Σᵢ wᵢ·(yᵢ − f(xᵢ; θ))²` subject to `lowerⱼ ≤ θⱼ ≤ upperⱼ`.
+//! Write e = W½·(y − f(θ)) and J_w = W½·∂f/∂θ.
+//!
+//! # Step
+//! The step δ minimises `‖e − J_w·δ‖² + λ·‖D·δ‖²`, i.e. it is the least-squares solution of
+//! the augmented system `[J_w; √λ·D]·δ ≈ [e; 0]`, computed by a Householder QR of J_w (once per
+//! Jacobian) followed by Givens rotations that fold √λ·D into R for each trial λ (MINPACK's
+//! `qrsolv`; Moré, Garbow & Hillstrom, ANL-80-74, 1980). JᵀJ is never formed.
+//!
+//! # Scaling
+//! D = diag(dⱼ), dⱼ = the largest ‖column j of J_w‖ seen so far (1 if always zero) — Moré,
+//! "The Levenberg–Marquardt algorithm: implementation and theory", Lecture Notes in
+//! Mathematics 630 (1978), §6. This makes the iteration invariant to the units of θ.
+//!
+//! # Damping update
+//! Nielsen's rule (H. B. Nielsen, "Damping parameter in Marquardt's method", IMM-REP-1999-05,
+//! DTU 1999; also Madsen, Nielsen & Tingleff, "Methods for non-linear least squares problems",
+//! 2nd ed. 2004, §3.2): with gain ratio ρ = (actual reduction)/(reduction predicted by the
+//! linear model), a step is accepted when ρ > 0 and then λ ← λ·max(1/3, 1 − (2ρ − 1)³), ν ← 2;
+//! otherwise λ ← λ·ν, ν ← 2ν. Initial λ = τ (default 10⁻³, Nielsen's suggestion for a start
+//! of unknown quality); with the scaled damping term this is τ·‖J_w,j‖² per parameter.
+//!
+//! # Geodesic acceleration (optional, on by default)
+//! Transtrum & Sethna, "Improvements to the Levenberg–Marquardt algorithm for nonlinear
+//! least-squares minimization", arXiv:1201.5885 (2012): with the velocity v (the step above),
+//! the acceleration a solves the same damped system with right-hand side −W½·f_vv, where the
+//! second directional derivative is estimated by finite differences along v,
+//! f_vv ≈ (2/h)·((f(θ + h·v) − f(θ))/h − J·v) with h = 0.1 (their choice). The step is
+//! δ = v + a/2, rejected when 2‖D·a‖/‖D·v‖ > α = 0.75 (their default). The Jacobian stays exact;
+//! only this curvature correction uses a model evaluation at a nearby point.
+//!
+//! # Bounds
+//! By projection with an active set (Kelley, *Iterative Methods for Optimization*, SIAM 1999,
+//! §5.5 — from memory): a parameter at a bound whose descent direction points outwards is held
+//! for the step (its Jacobian column is zeroed, which makes its step component exactly zero);
+//! the trial point is clamped into the box. The gradient test uses the projected gradient.
+//! A parameter that ends exactly on a bound is flagged in [`LmOutcome::at_bound`].
+//!
+//! # Stop rules (SPEC §13)
+//! Checked in this order and reported as [`StopReason`]:
+//! - relative reduction and relative step both at most `xtol`/`ftol`: after any trial,
+//!   |SSR − SSR_trial| ≤ ftol·SSR, the predicted reduction ≤ ftol·SSR, and
+//!   |δⱼ| ≤ xtol·(|θⱼ| + xtol) for all j (MINPACK's tests, per component);
+//! - scaled gradient: maxⱼ |J_w,jᵀ·e| / (‖J_w,j‖·‖e‖) ≤ gtol (MINPACK's cosine test);
+//! - zero residual: SSR ≤ 10⁻³⁰·Σ wᵢ·yᵢ²;
+//! - not converged: 200·(p + 1) Jacobian evaluations reached, or no acceptable step exists
+//!   (λ overflowed). Non-convergence is a result, not an error.
+//!
+//! A domain error (or non-finite value) of the model at a trial point rejects the step; at the
+//! start it is an error.
+
+use std::fmt;
+
+use nalgebra::DMatrix;
+
+use super::dense::{self, DampedWork};
+
+/// An error of the caller's model evaluator, e.g. a logarithm of a negative number at some row;
+/// the message says where (row, sub-expression).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ModelError {
+    pub message: String,
+}
+
+impl ModelError {
+    pub fn new(message: impl Into<String>) -> Self {
+        ModelError {
+            message: message.into(),
+        }
+    }
+}
+
+impl fmt::Display for ModelError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.message)
+    }
+}
+
+impl std::error::Error for ModelError {}
+
+/// A model f(x; θ) over fixed data rows, with its exact Jacobian.
+///
+/// The model owns its predictor data; the fit passes buffers sized to the response:
+/// `f_out.len() == n` and `j_out` is n × [`Model::n_params`], `j_out[(i, j)] = ∂f(xᵢ; θ)/∂θⱼ`.
+/// Implementations should not allocate: they are called in the inner loop.
+pub trait Model {
+    fn n_params(&self) -> usize;
+    fn eval(&self, params: &[f64], f_out: &mut [f64]) -> Result<(), ModelError>;
+    fn jacobian(&self, params: &[f64], j_out: &mut DMatrix<f64>) -> Result<(), ModelError>;
+}
+
+/// Box constraint of one parameter (use ±∞ for none).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Bound {
+    pub lower: f64,
+    pub upper: f64,
+}
+
+impl Bound {
+    /// No constraint.
+    pub const FREE: Bound = Bound {
+        lower: f64::NEG_INFINITY,
+        upper: f64::INFINITY,
+    };
+}
+
+impl Default for Bound {
+    fn default() -> Self {
+        Bound::FREE
+    }
+}
+
+/// The data the model is fitted to.
+#[derive(Debug, Clone, Copy)]
+pub struct Observations<'a> {
+    pub y: &'a [f64],
+    /// wᵢ ≥ 0; None means all 1.
+    pub weights: Option<&'a [f64]>,
+}
+
+/// An option value out of range.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OptionError {
+    pub option: &'static str,
+    pub value: f64,
+    pub expected: &'static str,
+}
+
+impl fmt::Display for OptionError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(
+            f,
+            "{} = {} is out of range: expected {}",
+            self.option, self.value, self.expected
+        )
+    }
+}
+
+impl std::error::Error for OptionError {}
+
+/// Settings of the Levenberg–Marquardt fit; setters check their range.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LmOptions {
+    xtol: f64,
+    ftol: f64,
+    gtol: f64,
+    max_jacobian_evals: Option<usize>,
+    initial_damping: f64,
+    geodesic_acceleration: bool,
+}
+
+impl Default for LmOptions {
+    fn default() -> Self {
+        LmOptions {
+            xtol: 1e-12,
+            ftol: 1e-12,
+            gtol: 1e-12,
+            max_jacobian_evals: None,
+            initial_damping: 1e-3,
+            geodesic_acceleration: true,
+        }
+    }
+}
+
+fn tolerance(option: &'static str, v: f64) -> Result<f64, OptionError> {
+    if (f64::EPSILON..1.0).contains(&v) {
+        Ok(v)
+    } else {
+        Err(OptionError {
+            option,
+            value: v,
+            expected: "a number in [2.2e-16, 1)",
+        })
+    }
+}
+
+impl LmOptions {
+    /// Relative step tolerance; default 1e-12 (SPEC §13). Range [ε, 1).
+    pub fn with_xtol(mut self, v: f64) -> Result<Self, OptionError> {
+        self.xtol = tolerance("xtol", v)?;
+        Ok(self)
+    }
+    /// Relative SSR reduction tolerance; default 1e-12 (SPEC §13). Range [ε, 1).
+    pub fn with_ftol(mut self, v: f64) -> Result<Self, OptionError> {
+        self.ftol = tolerance("ftol", v)?;
+        Ok(self)
+    }
+    /// Scaled gradient tolerance; default 1e-12 (SPEC §13). Range [ε, 1).
+    pub fn with_gtol(mut self, v: f64) -> Result<Self, OptionError> {
+        self.gtol = tolerance("gtol", v)?;
+        Ok(self)
+    }
+    /// Jacobian evaluation limit; default 200·(p + 1) (SPEC §13). At least 1.
+    pub fn with_max_jacobian_evals(mut self, v: usize) -> Result<Self, OptionError> {
+        if v == 0 {
+            return Err(OptionError {
+                option: "max_jacobian_evals",
+                value: 0.0,
+                expected: "at least 1",
+            });
+        }
+        self.max_jacobian_evals = Some(v);
+        Ok(self)
+    }
+    /// Initial damping τ; default 1e-3 (Nielsen 1999). Range (0, 1e10].
+    pub fn with_initial_damping(mut self, v: f64) -> Result<Self, OptionError> {
+        if !(v > 0.0 && v <= 1e10) {
+            return Err(OptionError {
+                option: "initial_damping",
+                value: v,
+                expected: "a number in (0, 1e10]",
+            });
+        }
+        self.initial_damping = v;
+        Ok(self)
+    }
+    /// Geodesic acceleration on or off; default on.
+    pub fn with_geodesic_acceleration(mut self, on: bool) -> Self {
+        self.geodesic_acceleration = on;
+        self
+    }
+    pub fn xtol(&self) -> f64 {
+        self.xtol
+    }
+    pub fn ftol(&self) -> f64 {
+        self.ftol
+    }
+    pub fn gtol(&self) -> f64 {
+        self.gtol
+    }
+    /// The Jacobian evaluation limit for p parameters.
+    pub fn max_jacobian_evals(&self, p: usize) -> usize {
+        self.max_jacobian_evals.unwrap_or(200 * (p + 1))
+    }
+}
+
+/// Why a non-converged fit stopped.
+#[derive(Debug, Clone, PartialEq)]
+pub enum NonConvergence {
+    /// The Jacobian evaluation limit was reached.
+    JacobianLimit { limit: usize },
+    /// λ grew past 1e300 without an acceptable step.
+    NoAcceptableStep { last_model_error: Option<String> },
+}
+
+/// Why the fit stopped. The first three mean converged.
+#[derive(Debug, Clone, PartialEq)]
+pub enum StopReason {
+    RelativeReductionAndStep {
+        ftol: f64,
+        xtol: f64,
+    },
+    Gradient {
+        gtol: f64,
+    },
+    ZeroResidual,
+    DidNotConverge {
+        iterations: usize,
+        cause: NonConvergence,
+    },
+}
+
+impl StopReason {
+    /// Converged = one of the first three reasons (SPEC §13).
+    pub fn converged(&self) -> bool {
+        !matches!(self, StopReason::DidNotConverge { .. })
+    }
+}
+
+impl fmt::Display for StopReason {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            StopReason::RelativeReductionAndStep { ftol, xtol } if ftol == xtol => {
+                write!(f, "relative reduction and step below {ftol:e}")
+            }
+            StopReason::RelativeReductionAndStep { ftol, xtol } => {
+                write!(
+                    f,
+                    "relative reduction below {ftol:e} and relative step below {xtol:e}"
+                )
+            }
+            StopReason::Gradient { gtol } => write!(f, "scaled gradient below {gtol:e}"),
+            StopReason::ZeroResidual => {
+                f.write_str("residual sum of squares below 1e-30·Σw·y² (zero-residual fit)")
+            }
+            StopReason::DidNotConverge { iterations, cause } => {
+                write!(f, "did not converge after {iterations} iterations: ")?;
+                match cause {
+                    NonConvergence::JacobianLimit { limit } => {
+                        write!(f, "Jacobian evaluation limit of {limit} reached")
+                    }
+                    NonConvergence::NoAcceptableStep { last_model_error } => {
+                        f.write_str("no step reduces the sum of squares (damping exceeded 1e300)")?;
+                        if let Some(m) = last_model_error {
+                            write!(f, "; the model failed near the current point: {m}")?;
+                        }
+                        Ok(())
+                    }
+                }
+            }
+        }
+    }
+}
+
+/// Result of a fit (converged or not).
+#[derive(Debug, Clone, PartialEq)]
+pub struct LmOutcome {
+    pub params: Vec<f64>,
+    /// Σ wᵢ·eᵢ² at `params`.
+    pub ssr: f64,
+    /// eᵢ = yᵢ − f(xᵢ; θ) in response units.
+    pub residuals: Vec<f64>,
+    pub fitted: Vec<f64>,
+    /// ∂f/∂θ at `params` (unweighted), n × p.
+    pub jacobian: DMatrix<f64>,
+    /// Accepted steps.
+    pub iterations: usize,
+    pub jacobian_evals: usize,
+    pub function_evals: usize,
+    pub stop: StopReason,
+    /// θⱼ ended exactly on a bound.
+    pub at_bound: Vec<bool>,
+}
+
+/// Errors that prevent a fit from starting.
+#[derive(Debug, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum LmError {
+    /// Lengths of start, bounds, weights, response disagree, or p = 0 / n < p.
+    Dimension(String),
+    /// NaN/infinite response or weight, negative weight (0-based row).
+    InvalidData { what: &'static str, row: usize },
+    /// A bound pair with lower > upper or NaN (0-based parameter).
+    InvalidBound { param: usize },
+    /// A start value that is not finite or outside its bounds.
+    InvalidStart { param: usize, value: f64 },
+    /// The model failed at the start values.
+    ModelAtStart(ModelError),
+    /// The model's Jacobian failed at the start values.
+    JacobianAtStart(ModelError),
+    /// The model or Jacobian gave a non-finite value at the start (0-based row).
+    NonFiniteAtStart { what: &'static str, row: usize },
+}
+
+impl fmt::Display for LmError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            LmError::Dimension(m) => f.write_str(m),
+            LmError::InvalidData { what, row } => {
+                write!(
+                    f,
+                    "{what} at row {} is not usable (NaN, infinite or negative)",
+                    row + 1
+                )
+            }
+            LmError::InvalidBound { param } => {
+                write!(f, "bounds of parameter {} need min ≤ max", param + 1)
+            }
+            LmError::InvalidStart { param, value } => write!(
+                f,
+                "start value {value} of parameter {} is not finite or lies outside its bounds",
+                param + 1
+            ),
+            LmError::ModelAtStart(e) => {
+                write!(f, "the model cannot be evaluated at the start values: {e}")
+            }
+            LmError::JacobianAtStart(e) => {
+                write!(
+                    f,
+                    "the model's derivatives cannot be evaluated at the start values: {e}"
+                )
+            }
+            LmError::NonFiniteAtStart { what, row } => write!(
+                f,
+                "the {what} is not finite at row {} for the start values; choose other starts",
+                row + 1
+            ),
+        }
+    }
+}
+
+impl std::error::Error for LmError {}
+
+/// Smallest and largest damping: λ beyond 1e300 means no step can be found (see
+/// [`NonConvergence::NoAcceptableStep`]); below 1e-300 it is held (common practice, keeps the
+/// augmented system away from exact singularity).
+const LAMBDA_MAX: f64 = 1e300;
+const LAMBDA_MIN: f64 = 1e-300;
+/// Finite-difference step of the geodesic acceleration and its acceptance ratio
+/// (Transtrum & Sethna 2012).
+const ACCEL_H: f64 = 0.1;
+const ACCEL_ALPHA: f64 = 0.75;
+/// Zero-residual threshold factor (SPEC §13).
+const ZERO_RESIDUAL: f64 = 1e-30;
+
+/// Buffers of one fit, allocated once.
+struct Work {
+    sqrt_w: Vec<f64>,
+    f: Vec<f64>,
+    f_trial: Vec<f64>,
+    e: Vec<f64>,
+    e_trial: Vec<f64>,
+    jac: DMatrix<f64>,
+    jac_trial: DMatrix<f64>,
+    qr: DMatrix<f64>,
+    tau: Vec<f64>,
+    qte: Vec<f64>,
+    rhs: Vec<f64>,
+    damped: DampedWork,
+    diag: Vec<f64>,
+    col_norm: Vec<f64>,
+    grad: Vec<f64>,
+    frozen: Vec<bool>,
+    v: Vec<f64>,
+    a: Vec<f64>,
+    step: Vec<f64>,
+    theta: Vec<f64>,
+    theta_trial: Vec<f64>,
+    rstep: Vec<f64>,
+}
+
+/// Fit `model` to `obs` from `start` within `bounds` (None = unbounded).
+pub fn fit<M: Model + ?Sized>(
+    model: &M,
+    obs: &Observations<'_>,
+    start: &[f64],
+    bounds: Option<&[Bound]>,
+    options: &LmOptions,
+) -> Result<LmOutcome, LmError> {
+    let p = model.n_params();
+    let n = obs.y.len();
+    let free_bounds = vec![Bound::FREE; p];
+    let bounds = bounds.unwrap_or(&free_bounds);
+    validate(p, n, obs, start, bounds)?;
+
+    let mut w = Work {
+        sqrt_w: match obs.weights {
+            Some(wt) => wt.iter().map(|v| v.sqrt()).collect(),
+            None => vec![1.0; n],
+        },
+        f: vec![0.0; n],
+        f_trial: vec![0.0; n],
+        e: vec![0.0; n],
+        e_trial: vec![0.0; n],
+        jac: DMatrix::zeros(n, p),
+        jac_trial: DMatrix::zeros(n, p),
+        qr: DMatrix::zeros(n, p),
+        tau: vec![0.0; p],
+        qte: vec![0.0; n],
+        rhs: vec![0.0; n],
+        damped: DampedWork::new(p),
+        diag: vec![0.0; p],
+        col_norm: vec![0.0; p],
+        grad: vec![0.0; p],
+        frozen: vec![false; p],
+        v: vec![0.0; p],
+        a: vec![0.0; p],
+        step: vec![0.0; p],
+        theta: start.to_vec(),
+        theta_trial: vec![0.0; p],
+        rstep: vec![0.0; p],
+    };
+
+    model
+        .eval(&w.theta, &mut w.f)
+        .map_err(LmError::ModelAtStart)?;
+    if let Some(row) = w.f.iter().position(|v| !v.is_finite()) {
+        return Err(LmError::NonFiniteAtStart {
+            what: "model value",
+            row,
+        });
+    }
+    let mut ssr = weighted_residuals(obs.y, &w.f, &w.sqrt_w, &mut w.e);
+    model
+        .jacobian(&w.theta, &mut w.jac)
+        .map_err(LmError::JacobianAtStart)?;
+    if let Some(k) = w.jac.iter().position(|v| !v.is_finite()) {
+        return Err(LmError::NonFiniteAtStart {
+            what: "Jacobian",
+            row: k % n,
+        });
+    }
+    let mut nfev = 1;
+    let mut njev = 1;
+    let max_jev = options.max_jacobian_evals(p);
+    let zero_threshold = ZERO_RESIDUAL
+        * obs
+            .y
+            .iter()
+            .zip(&w.sqrt_w)
+            .map(|(y, s)| (s * y) * (s * y))
+            .sum::<f64>();
+    let mut lambda = options.initial_damping;
+    let mut nu = 2.0;
+    let mut iterations = 0;
+    let mut last_model_error: Option<String> = None;
+
+    let stop = 'outer: loop {
+        if ssr <= zero_threshold {
+            break StopReason::ZeroResidual;
+        }
+        // Weighted Jacobian, scaling and projected gradient.
+        let enorm = dense::norm2(&w.e);
+        let mut gnorm = 0.0_f64;
+        for j in 0..p {
+            let col = w.jac.column(j);
+            let mut g = 0.0;
+            let qcol = &mut w.qr.as_mut_slice()[j * n..(j + 1) * n];
+            for i in 0..n {
+                let v = col[i] * w.sqrt_w[i];
+                qcol[i] = v;
+                g += v * w.e[i];
+            }
+            let c = dense::norm2(qcol);
+            w.col_norm[j] = c;
+            w.diag[j] = w.diag[j].max(c);
+            if w.diag[j] == 0.0 {
+                w.diag[j] = 1.0;
+            }
+            w.grad[j] = g;
+            // Descent direction of SSR is +g; hold a parameter at a bound it would leave.
+            let th = w.theta[j];
+            w.frozen[j] = (th <= bounds[j].lower && g < 0.0) || (th >= bounds[j].upper && g > 0.0);
+            if w.frozen[j] {
+                qcol.fill(0.0);
+            } else if c > 0.0 && enorm > 0.0 {
+                gnorm = gnorm.max(g.abs() / (c * enorm));
+            }
+        }
+        if gnorm <= options.gtol {
+            break StopReason::Gradient { gtol: options.gtol };
+        }
+        dense::householder_qr_in_place(&mut w.qr, &mut w.tau);
+        w.qte.copy_from_slice(&w.e);
+        dense::apply_qt(&w.qr, &w.tau, &mut w.qte);
+
+        // Inner loop: trial steps at increasing damping until one is accepted.
+        loop {
+            if lambda.is_nan() || lambda > LAMBDA_MAX {
+                break 'outer StopReason::DidNotConverge {
+                    iterations,
+                    cause: NonConvergence::NoAcceptableStep {
+                        last_model_error: last_model_error.clone(),
+                    },
+                };
+            }
+            let solved =
+                dense::damped_solve(&w.qr, &w.diag, lambda, &w.qte, &mut w.damped, &mut w.v);
+            let mut ok = solved;
+            if ok && options.geodesic_acceleration {
+                ok = acceleration(model, obs, &mut w, lambda, &mut nfev);
+            } else {
+                w.a.fill(0.0);
+            }
+            if ok {
+                // Trial point, projected into the box.
+                for j in 0..p {
+                    let t = w.theta[j] + w.v[j] + 0.5 * w.a[j];
+                    let t = t.clamp(bounds[j].lower, bounds[j].upper);
+                    w.theta_trial[j] = t;
+                    w.step[j] = t - w.theta[j];
+                }
+                ok = w.step.iter().all(|s| s.is_finite());
+            }
+            if ok {
+                // Predicted reduction of the linear model for the velocity part u of the step
+                // (u = projected v; with acceleration off u = δ): 2·(Ru)ᵀ(Qᵀe) − ‖Ru‖².
+                // The acceleration corrects for curvature the linear model does not see, so
+                // the gain ratio compares the actual reduction of v + a/2 with the reduction
+                // predicted for v (Transtrum & Sethna 2012, §III).
+                for j in 0..p {
+                    w.rstep[j] =
+                        (w.theta[j] + w.v[j]).clamp(bounds[j].lower, bounds[j].upper) - w.theta[j];
+                }
+                let mut pred = 0.0;
+                for i in 0..p {
+                    let mut s = 0.0;
+                    for k in i..p {
+                        s += w.qr[(i, k)] * w.rstep[k];
+                    }
+                    pred += 2.0 * s * w.qte[i] - s * s;
+                }
+                let rel_step = (0..p)
+                    .map(|j| w.step[j].abs() / (w.theta[j].abs() + options.xtol))
+                    .fold(0.0_f64, f64::max);
+                nfev += 1;
+                let evaluated = match model.eval(&w.theta_trial, &mut w.f_trial) {
+                    Ok(()) if w.f_trial.iter().all(|v| v.is_finite()) => true,
+                    Ok(()) => {
+                        last_model_error = Some("the model gave a non-finite value".into());
+                        false
+                    }
+                    Err(e) => {
+                        last_model_error = Some(e.message);
+                        false
+                    }
+                };
+                if evaluated {
+                    let ssr_trial =
+                        weighted_residuals(obs.y, &w.f_trial, &w.sqrt_w, &mut w.e_trial);
+                    // SSR − SSR_trial as Σ (eᵢ − ẽᵢ)(eᵢ + ẽᵢ): accurate even when the two sums
+                    // agree in most digits, where their difference would be rounding noise.
+                    let actual: f64 =
+                        w.e.iter()
+                            .zip(&w.e_trial)
+                            .map(|(a, b)| (a - b) * (a + b))
+                            .sum();
+                    let converged_here = actual.abs() <= options.ftol * ssr
+                        && pred <= options.ftol * ssr
+                        && rel_step <= options.xtol;
+                    let rho = if pred > 0.0 { actual / pred } else { -1.0 };
+                    if (rho > 0.0 || (converged_here && actual > 0.0))
+                        && njev < max_jev
+                        && accept(model, &mut w, &mut njev)
+                    {
+                        std::mem::swap(&mut w.f, &mut w.f_trial);
+                        std::mem::swap(&mut w.e, &mut w.e_trial);
+                        std::mem::swap(&mut w.theta, &mut w.theta_trial);
+                        ssr = ssr_trial;
+                        iterations += 1;
+                        let factor = 1.0 - (2.0 * rho - 1.0).powi(3);
+                        lambda = (lambda * factor.max(1.0 / 3.0)).max(LAMBDA_MIN);
+                        nu = 2.0;
+                        if converged_here {
+                            break 'outer StopReason::RelativeReductionAndStep {
+                                ftol: options.ftol,
+                                xtol: options.xtol,
+                            };
+                        }
+                        break;
+                    }
+                    if converged_here {
+                        break 'outer StopReason::RelativeReductionAndStep {
+                            ftol: options.ftol,
+                            xtol: options.xtol,
+                        };
+                    }
+                }
+            }
+            if njev >= max_jev {
+                break 'outer StopReason::DidNotConverge {
+                    iterations,
+                    cause: NonConvergence::JacobianLimit { limit: max_jev },
+                };
+            }
+            lambda *= nu;
+            nu *= 2.0;
+        }
+        if njev >= max_jev {
+            break StopReason::DidNotConverge {
+                iterations,
+                cause: NonConvergence::JacobianLimit { limit: max_jev },
+            };
+        }
+    };
+
+    let residuals: Vec<f64> = obs.y.iter().zip(&w.f).map(|(y, f)| y - f).collect();
+    let at_bound = (0..p)
+        .map(|j| w.theta[j] == bounds[j].lower || w.theta[j] == bounds[j].upper)
+        .collect();
+    Ok(LmOutcome {
+        params: w.theta,
+        ssr,
+        residuals,
+        fitted: w.f,
+        jacobian: w.jac,
+        iterations,
+        jacobian_evals: njev,
+        function_evals: nfev,
+        stop,
+        at_bound,
+    })
+}
+
+/// Evaluate the Jacobian at the trial point; true when usable (then it becomes current).
+fn accept<M: Model + ?Sized>(model: &M, w: &mut Work, njev: &mut usize) -> bool {
+    *njev += 1;
+    match model.jacobian(&w.theta_trial, &mut w.jac_trial) {
+        Ok(()) if w.jac_trial.iter().all(|v| v.is_finite()) => {
+            std::mem::swap(&mut w.jac, &mut w.jac_trial);
+            true
+        }
+        _ => false,
+    }
+}
+
+/// Geodesic acceleration for the velocity in `w.v` (see the module docs); fills `w.a`.
+/// Returns false when the step must be rejected (acceleration too large relative to v).
+/// If the model fails at θ + h·v, the acceleration is dropped (a = 0) and the plain step is tried.
+fn acceleration<M: Model + ?Sized>(
+    model: &M,
+    obs: &Observations<'_>,
+    w: &mut Work,
+    lambda: f64,
+    nfev: &mut usize,
+) -> bool {
+    let p = w.v.len();
+    let n = obs.y.len();
+    w.a.fill(0.0);
+    for j in 0..p {
+        w.theta_trial[j] = w.theta[j] + ACCEL_H * w.v[j];
+    }
+    *nfev += 1;
+    if model.eval(&w.theta_trial, &mut w.f_trial).is_err()
+        || w.f_trial.iter().any(|v| !v.is_finite())
+    {
+        return true;
+    }
+    // rhs = −W½·f_vv with f_vv ≈ (2/h)·((f(θ + h·v) − f(θ))/h − J·v).
+    for i in 0..n {
+        let mut jv = 0.0;
+        for j in 0..p {
+            jv += w.jac[(i, j)] * w.v[j];
+        }
+        let fvv = (2.0 / ACCEL_H) * ((w.f_trial[i] - w.f[i]) / ACCEL_H - jv);
+        w.rhs[i] = -w.sqrt_w[i] * fvv;
+    }
+    dense::apply_qt(&w.qr, &w.tau, &mut w.rhs);
+    if !dense::damped_solve(&w.qr, &w.diag, lambda, &w.rhs, &mut w.damped, &mut w.a) {
+        w.a.fill(0.0);
+        return true;
+    }
+    let (mut na, mut nv) = (0.0, 0.0);
+    for j in 0..p {
+        na += (w.diag[j] * w.a[j]).powi(2);
+        nv += (w.diag[j] * w.v[j]).powi(2);
+    }
+    2.0 * na.sqrt() <= ACCEL_ALPHA * nv.sqrt()
+}
+
+/// e = W½·(y − f); returns ‖e‖².
+fn weighted_residuals(y: &[f64], f: &[f64], sqrt_w: &[f64], e: &mut [f64]) -> f64 {
+    let mut ssr = 0.0;
+    for i in 0..y.len() {
+        let v = sqrt_w[i] * (y[i] - f[i]);
+        e[i] = v;
+        ssr += v * v;
+    }
+    ssr
+}
+
+fn validate(
+    p: usize,
+    n: usize,
+    obs: &Observations<'_>,
+    start: &[f64],
+    bounds: &[Bound],
+) -> Result<(), LmError> {
+    if p == 0 {
+        return Err(LmError::Dimension(
+            "the model has no parameters to fit".into(),
+        ));
+    }
+    if n < p {
+        return Err(LmError::Dimension(format!(
+            "{n} observations cannot determine {p} parameters"
+        )));
+    }
+    if start.len() != p {
+        return Err(LmError::Dimension(format!(
+            "{} start values for {p} parameters",
+            start.len()
+        )));
+    }
+    if bounds.len() != p {
+        return Err(LmError::Dimension(format!(
+            "{} bounds for {p} parameters",
+            bounds.len()
+        )));
+    }
+    if let Some(row) = obs.y.iter().position(|v| !v.is_finite()) {
+        return Err(LmError::InvalidData {
+            what: "response",
+            row,
+        });
+    }
+    if let Some(wt) = obs.weights {
+        if wt.len() != n {
+            return Err(LmError::Dimension(format!(
+                "{} weights for {n} observations",
+                wt.len()
+            )));
+        }
+        if let Some(row) = wt.iter().position(|v| !(v.is_finite() && *v >= 0.0)) {
+            return Err(LmError::InvalidData {
+                what: "weight",
+                row,
+            });
+        }
+    }
+    for (j, b) in bounds.iter().enumerate() {
+        if b.lower.is_nan() || b.upper.is_nan() || b.lower > b.upper {
+            return Err(LmError::InvalidBound { param: j });
+        }
+        let s = start[j];
+        if !s.is_finite() || s < b.lower || s > b.upper {
+            return Err(LmError::InvalidStart { param: j, value: s });
+        }
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// y = a·exp(−b·x), invented data of a thermistor's cooling curve.
+    struct Decay {
+        x: Vec<f64>,
+    }
+
+    impl Model for Decay {
+        fn n_params(&self) -> usize {
+            2
+        }
+        fn eval(&self, t: &[f64], f: &mut [f64]) -> Result<(), ModelError> {
+            for (fi, x) in f.iter_mut().zip(&self.x) {
+                *fi = t[0] * (-t[1] * x).exp();
+            }
+            Ok(())
+        }
+        fn jacobian(&self, t: &[f64], j: &mut DMatrix<f64>) -> Result<(), ModelError> {
+            for (i, x) in self.x.iter().enumerate() {
+                let e = (-t[1] * x).exp();
+                j[(i, 0)] = e;
+                j[(i, 1)] = -t[0] * x * e;
+            }
+            Ok(())
+        }
+    }
+
+    fn decay_data() -> (Decay, Vec<f64>) {
+        let x: Vec<f64> = (0..12).map(|i| i as f64 * 0.5).collect();
+        // Exact curve 80·exp(−0.35x) plus a fixed, invented perturbation.
+        let noise = [
+            0.3, -0.2, 0.1, -0.4, 0.2, 0.0, -0.1, 0.15, -0.05, 0.1, -0.2, 0.05,
+        ];
+        let y = x
+            .iter()
+            .zip(noise)
+            .map(|(x, e)| 80.0 * (-0.35 * x).exp() + e)
+            .collect();
+        (Decay { x }, y)
+    }
+
+    #[test]
+    fn converges_to_a_stationary_point_from_a_far_start() {
+        let (m, y) = decay_data();
+        let obs = Observations {
+            y: &y,
+            weights: None,
+        };
+        let out = fit(&m, &obs, &[10.0, 1.5], None, &LmOptions::default()).unwrap();
+        assert!(out.stop.converged(), "{}", out.stop);
+        // First-order optimality: Jᵀe = 0 at the minimum (independent of the method).
+        for j in 0..2 {
+            let g: f64 = (0..y.len())
+                .map(|i| out.jacobian[(i, j)] * out.residuals[i])
+                .sum();
+            let scale: f64 = (0..y.len())
+                .map(|i| out.jacobian[(i, j)].abs() * out.residuals[i].abs())
+                .sum();
+            assert!(g.abs() <= 1e-9 * scale, "gradient component {j}: {g}");
+        }
+        assert!((out.params[0] - 80.0).abs() < 1.0 && (out.params[1] - 0.35).abs() < 0.02);
+    }
+
+    #[test]
+    fn exact_data_stop_as_zero_residual() {
+        let x: Vec<f64> = (0..8).map(f64::from).collect();
+        let y: Vec<f64> = x.iter().map(|x| 5.0 * (-0.2 * x).exp()).collect();
+        let m = Decay { x };
+        let obs = Observations {
+            y: &y,
+            weights: None,
+        };
+        let out = fit(&m, &obs, &[1.0, 0.5], None, &LmOptions::default()).unwrap();
+        assert!(out.stop.converged(), "{}", out.stop);
+        assert!((out.params[0] - 5.0).abs() < 1e-10 && (out.params[1] - 0.2).abs() < 1e-11);
+    }
+
+    #[test]
+    fn active_upper_bound_is_flagged_and_respected() {
+        let (m, y) = decay_data();
+        let obs = Observations {
+            y: &y,
+            weights: None,
+        };
+        let bounds = [
+            Bound {
+                lower: 0.0,
+                upper: 60.0,
+            },
+            Bound::FREE,
+        ];
+        let out = fit(&m, &obs, &[10.0, 1.0], Some(&bounds), &LmOptions::default()).unwrap();
+        assert!(out.stop.converged(), "{}", out.stop);
+        assert_eq!(out.params[0], 60.0);
+        assert_eq!(out.at_bound, vec![true, false]);
+        // With a held at 60, b must minimise the 1-parameter problem: ∂SSR/∂b = 0.
+        let g: f64 = (0..y.len())
+            .map(|i| out.jacobian[(i, 1)] * out.residuals[i])
+            .sum();
+        let jn: f64 = (0..y.len())
+            .map(|i| out.jacobian[(i, 1)].powi(2))
+            .sum::<f64>()
+            .sqrt();
+        let en: f64 = out.residuals.iter().map(|e| e * e).sum::<f64>().sqrt();
+        // Cosine test at the noise floor of the SSR comparison (SSR ≈ 788 here).
+        assert!(g.abs() <= 1e-9 * jn * en, "{g} {jn} {en} {}", out.stop);
+    }
+
+    /// A model that fails for negative b (like a log of a negative number would).
+    struct Fussy(Decay);
+    impl Model for Fussy {
+        fn n_params(&self) -> usize {
+            2
+        }
+        fn eval(&self, t: &[f64], f: &mut [f64]) -> Result<(), ModelError> {
+            if t[1] < 0.0 {
+                return Err(ModelError::new("row 3: ln(b) of a negative number"));
+            }
+            self.0.eval(t, f)
+        }
+        fn jacobian(&self, t: &[f64], j: &mut DMatrix<f64>) -> Result<(), ModelError> {
+            self.0.jacobian(t, j)
+        }
+    }
+
+    #[test]
+    fn domain_error_at_a_trial_point_rejects_the_step_and_at_the_start_is_an_error() {
+        let (m, y) = decay_data();
+        let fussy = Fussy(m);
+        let obs = Observations {
+            y: &y,
+            weights: None,
+        };
+        let out = fit(&fussy, &obs, &[80.0, 0.01], None, &LmOptions::default()).unwrap();
+        assert!(out.stop.converged(), "{}", out.stop);
+        let err = fit(&fussy, &obs, &[80.0, -1.0], None, &LmOptions::default()).unwrap_err();
+        assert!(matches!(err, LmError::ModelAtStart(_)));
+        assert!(err.to_string().contains("row 3"));
+    }
+
+    #[test]
+    fn iteration_limit_is_a_result_not_an_error() {
+        let (m, y) = decay_data();
+        let obs = Observations {
+            y: &y,
+            weights: None,
+        };
+        let opts = LmOptions::default().with_max_jacobian_evals(3).unwrap();
+        let out = fit(&m, &obs, &[10.0, 1.5], None, &opts).unwrap();
+        assert!(!out.stop.converged());
+        assert_eq!(out.jacobian_evals, 3);
+        assert!(
+            out.stop.to_string().starts_with("did not converge after"),
+            "{}",
+            out.stop
+        );
+    }
+
+    #[test]
+    fn setters_reject_out_of_range_values() {
+        assert!(LmOptions::default().with_xtol(0.0).is_err());
+        assert!(LmOptions::default().with_ftol(f64::NAN).is_err());
+        assert!(LmOptions::default().with_gtol(1.0).is_err());
+        assert!(LmOptions::default().with_initial_damping(-1.0).is_err());
+        assert_eq!(LmOptions::default().max_jacobian_evals(3), 800);
+        assert_eq!(
+            StopReason::RelativeReductionAndStep {
+                ftol: 1e-12,
+                xtol: 1e-12
+            }
+            .to_string(),
+            "relative reduction and step below 1e-12"
+        );
+    }
+
+    #[test]
+    fn bad_input_is_an_error() {
+        let (m, y) = decay_data();
+        let obs = Observations {
+            y: &y,
+            weights: None,
+        };
+        let o = LmOptions::default();
+        assert!(matches!(
+            fit(&m, &obs, &[1.0], None, &o),
+            Err(LmError::Dimension(_))
+        ));
+        let b = [
+            Bound {
+                lower: 2.0,
+                upper: 1.0,
+            },
+            Bound::FREE,
+        ];
+        assert!(matches!(
+            fit(&m, &obs, &[1.5, 1.0], Some(&b), &o),
+            Err(LmError::InvalidBound { param: 0 })
+        ));
+        let b = [
+            Bound {
+                lower: 0.0,
+                upper: 1.0,
+            },
+            Bound::FREE,
+        ];
+        assert!(matches!(
+            fit(&m, &obs, &[5.0, 1.0], Some(&b), &o),
+            Err(LmError::InvalidStart { param: 0, .. })
+        ));
+        let mut bad = y.clone();
+        bad[2] = f64::INFINITY;
+        let obs = Observations {
+            y: &bad,
+            weights: None,
+        };
+        assert!(matches!(
+            fit(&m, &obs, &[1.0, 1.0], None, &o),
+            Err(LmError::InvalidData { row: 2, .. })
+        ));
+    }
+}
