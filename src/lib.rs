@@ -10,6 +10,7 @@ pub mod batch;
 pub mod cli;
 pub mod data;
 pub mod error;
+pub mod expr;
 pub mod fit;
 pub mod fsutil;
 pub mod hash;

@@ -1,0 +1,779 @@
+//! Compiled evaluation over whole columns.
+//!
+//! An expression (or several, sharing their common sub-expressions) is compiled once into
+//! a flat instruction list. Sub-expressions without data variables (parameters,
+//! constants, `exp(a)`, `1/298.15`) are computed once per call; the rest runs over the
+//! rows in chunks of [`CHUNK`] so the working registers stay in cache and memory stays
+//! bounded whatever the number of rows. Registers are reused once their value is dead.
+//!
+//! Domain errors are caught without slowing the common case: every instruction's output
+//! chunk is checked for non-finite values (one vectorizable pass), and only a chunk that
+//! has one is re-evaluated row by row with the checked reference evaluator, which names
+//! the row and the sub-expression (and decides, with its short-circuit `&&`/`||`, whether
+//! the value really mattered).
+
+use std::collections::HashMap;
+
+use super::ast::{AddOp, CmpOp, Expr, ExprKind, Func, LogicOp, MulOp};
+use super::error::{EvalError, ExprError};
+use super::recursive::eval_checked;
+
+/// Rows per chunk: 2,048 rows × 8 bytes = 16 KiB per register.
+pub const CHUNK: usize = 2048;
+
+/// Slot order of the names an expression may use: variables in column order,
+/// parameters in parameter-vector order.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct Symbols {
+    pub variables: Vec<String>,
+    pub parameters: Vec<String>,
+}
+
+impl Symbols {
+    pub fn new(variables: &[&str], parameters: &[&str]) -> Symbols {
+        Symbols {
+            variables: variables.iter().map(|s| s.to_string()).collect(),
+            parameters: parameters.iter().map(|s| s.to_string()).collect(),
+        }
+    }
+
+    fn lookup<'a>(
+        &'a self,
+        columns: &'a [&[f64]],
+        params: &'a [f64],
+        row: usize,
+    ) -> impl Fn(&str) -> Option<f64> + 'a {
+        move |name: &str| {
+            if let Some(i) = self.variables.iter().position(|v| v == name) {
+                return columns.get(i).and_then(|c| c.get(row)).copied();
+            }
+            let i = self.parameters.iter().position(|p| p == name)?;
+            params.get(i).copied()
+        }
+    }
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+enum Op {
+    Add,
+    Sub,
+    Mul,
+    Div,
+    Neg,
+    Pow,
+    PowI(i32),
+    Sqrt,
+    F1(Func),
+    F2(Func),
+    Cmp(CmpOp),
+    And,
+    Or,
+    Not,
+}
+
+const NONE: u32 = u32::MAX;
+
+/// A value of the shared graph: a leaf or an operation on earlier values.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+enum Key {
+    Const(u64),
+    Var(u32),
+    Param(u32),
+    Op(Op, u32, u32),
+}
+
+/// Where an instruction reads an operand from.
+#[derive(Clone, Copy, Debug)]
+enum Src {
+    Reg(u32),
+    Col(u32),
+    Scalar(u32),
+}
+
+#[derive(Clone, Debug)]
+struct Instr {
+    op: Op,
+    out: u32,
+    a: Src,
+    b: Src,
+}
+
+/// Several expressions compiled together; common sub-expressions are computed once.
+#[derive(Clone, Debug)]
+pub struct MultiTape {
+    symbols: Symbols,
+    exprs: Vec<Expr>,
+    keys: Vec<Key>,
+    /// Values computed once per call, in dependency order.
+    scalar_order: Vec<u32>,
+    program: Vec<Instr>,
+    registers: usize,
+    outputs: Vec<Src>,
+}
+
+/// One compiled expression.
+#[derive(Clone, Debug)]
+pub struct Tape {
+    inner: MultiTape,
+}
+
+impl Tape {
+    /// Compiles `expr`; names must be in `symbols` (or be `pi`).
+    pub fn compile(expr: &Expr, symbols: &Symbols) -> Result<Tape, ExprError> {
+        Ok(Tape {
+            inner: MultiTape::compile(std::slice::from_ref(expr), symbols)?,
+        })
+    }
+
+    /// Evaluates over the rows: `columns[i]` holds variable `i`, `out` receives one value
+    /// per row. A domain error names the first bad row and the sub-expression.
+    pub fn eval(
+        &self,
+        columns: &[&[f64]],
+        params: &[f64],
+        out: &mut [f64],
+    ) -> Result<(), EvalError> {
+        self.inner.eval(columns, params, &mut [out])
+    }
+
+    /// Evaluates without domain checks: NaN and ±inf are left in `out`.
+    pub fn eval_unchecked(
+        &self,
+        columns: &[&[f64]],
+        params: &[f64],
+        out: &mut [f64],
+    ) -> Result<(), EvalError> {
+        self.inner.run(columns, params, &mut [out], false)
+    }
+
+    /// Evaluates a filter: one `bool` per row.
+    pub fn eval_mask(&self, columns: &[&[f64]], params: &[f64]) -> Result<Vec<bool>, EvalError> {
+        let rows = rows_of(columns, self.inner.symbols.variables.len())?;
+        let mut out = vec![0.0; rows];
+        self.eval(columns, params, &mut out)?;
+        Ok(out.iter().map(|v| *v != 0.0).collect())
+    }
+
+    /// The expression this tape evaluates.
+    pub fn expr(&self) -> &Expr {
+        &self.inner.exprs[0]
+    }
+
+    /// Number of per-chunk instructions (after sharing and hoisting constants).
+    pub fn len(&self) -> usize {
+        self.inner.program.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.inner.program.is_empty()
+    }
+}
+
+fn rows_of(columns: &[&[f64]], expected: usize) -> Result<usize, EvalError> {
+    if columns.len() != expected {
+        return Err(shape_error(format!(
+            "expected {expected} data columns, got {}",
+            columns.len()
+        )));
+    }
+    Ok(columns.first().map_or(0, |c| c.len()))
+}
+
+fn shape_error(message: String) -> EvalError {
+    EvalError {
+        row: 0,
+        message,
+        subexpr: String::new(),
+    }
+}
+
+impl MultiTape {
+    /// Compiles several expressions over the same symbols into one shared program.
+    pub fn compile(exprs: &[Expr], symbols: &Symbols) -> Result<MultiTape, ExprError> {
+        for name in symbols.variables.iter().chain(&symbols.parameters) {
+            if name == "pi" {
+                return Err(ExprError::new(
+                    Default::default(),
+                    "`pi` is the constant π and cannot name a variable or parameter",
+                ));
+            }
+        }
+        let mut b = Builder {
+            symbols,
+            keys: Vec::new(),
+            memo: HashMap::new(),
+        };
+        let roots = exprs
+            .iter()
+            .map(|e| b.lower(e))
+            .collect::<Result<Vec<u32>, ExprError>>()?;
+        let keys = b.keys;
+        Ok(MultiTape::emit(
+            symbols.clone(),
+            exprs.to_vec(),
+            keys,
+            &roots,
+        ))
+    }
+
+    /// Compiles a model and its derivative with respect to every parameter of `symbols`
+    /// (output 0 is the simplified model, output `1 + j` its derivative by parameter `j`),
+    /// sharing the sub-expressions they have in common.
+    pub fn model_and_jacobian(model: &Expr, symbols: &Symbols) -> Result<MultiTape, ExprError> {
+        let params: Vec<&str> = symbols.parameters.iter().map(String::as_str).collect();
+        let mut exprs = vec![super::simplify(model)];
+        exprs.extend(super::deriv::jacobian(model, &params));
+        MultiTape::compile(&exprs, symbols)
+    }
+
+    /// Number of per-row instructions (after sharing and hoisting constants).
+    pub fn program_len(&self) -> usize {
+        self.program.len()
+    }
+
+    /// The compiled expressions, in output order.
+    pub fn exprs(&self) -> &[Expr] {
+        &self.exprs
+    }
+
+    fn emit(symbols: Symbols, exprs: Vec<Expr>, keys: Vec<Key>, roots: &[u32]) -> MultiTape {
+        let n = keys.len();
+        // A value is per-row ("vector") when it depends on a data variable.
+        let mut vector = vec![false; n];
+        for (i, k) in keys.iter().enumerate() {
+            vector[i] = match *k {
+                Key::Var(_) => true,
+                Key::Const(_) | Key::Param(_) => false,
+                Key::Op(_, a, b) => vector[a as usize] || (b != NONE && vector[b as usize]),
+            };
+        }
+        let is_instr = |i: usize| vector[i] && matches!(keys[i], Key::Op(..));
+        let mut last_use = vec![0usize; n];
+        let mut order = 0usize;
+        let mut instr_index = vec![usize::MAX; n];
+        for (i, k) in keys.iter().enumerate() {
+            if !is_instr(i) {
+                continue;
+            }
+            instr_index[i] = order;
+            if let Key::Op(_, a, b) = *k {
+                last_use[a as usize] = order;
+                if b != NONE {
+                    last_use[b as usize] = order;
+                }
+            }
+            order += 1;
+        }
+        for &r in roots {
+            last_use[r as usize] = usize::MAX;
+        }
+        let mut reg_of = vec![NONE; n];
+        let mut free: Vec<u32> = Vec::new();
+        let mut registers = 0u32;
+        let mut program = Vec::new();
+        let src = |i: u32, reg_of: &[u32]| match keys[i as usize] {
+            Key::Var(slot) => Src::Col(slot),
+            _ if vector[i as usize] => Src::Reg(reg_of[i as usize]),
+            _ => Src::Scalar(i),
+        };
+        for (i, k) in keys.iter().enumerate() {
+            let Key::Op(op, a, b) = *k else { continue };
+            if !is_instr(i) {
+                continue;
+            }
+            let out = free.pop().unwrap_or_else(|| {
+                registers += 1;
+                registers - 1
+            });
+            reg_of[i] = out;
+            let sa = src(a, &reg_of);
+            let sb = if b == NONE {
+                Src::Scalar(NONE)
+            } else {
+                src(b, &reg_of)
+            };
+            program.push(Instr {
+                op,
+                out,
+                a: sa,
+                b: sb,
+            });
+            // Free operands whose last use is this instruction (after choosing `out`,
+            // so an instruction never writes a register it reads).
+            let here = instr_index[i];
+            for operand in [a, b] {
+                if operand != NONE
+                    && is_instr(operand as usize)
+                    && last_use[operand as usize] == here
+                    && !free.contains(&reg_of[operand as usize])
+                {
+                    free.push(reg_of[operand as usize]);
+                }
+            }
+        }
+        let scalar_order = (0..n as u32).filter(|&i| !vector[i as usize]).collect();
+        let outputs = roots.iter().map(|&r| src(r, &reg_of)).collect();
+        MultiTape {
+            symbols,
+            exprs,
+            keys,
+            scalar_order,
+            program,
+            registers: registers as usize,
+            outputs,
+        }
+    }
+
+    /// Evaluates every output over the rows (`outs[k]` receives output `k`).
+    pub fn eval(
+        &self,
+        columns: &[&[f64]],
+        params: &[f64],
+        outs: &mut [&mut [f64]],
+    ) -> Result<(), EvalError> {
+        self.run(columns, params, outs, true)
+    }
+
+    fn run(
+        &self,
+        columns: &[&[f64]],
+        params: &[f64],
+        outs: &mut [&mut [f64]],
+        checked: bool,
+    ) -> Result<(), EvalError> {
+        if params.len() != self.symbols.parameters.len() {
+            return Err(shape_error(format!(
+                "expected {} parameter values, got {}",
+                self.symbols.parameters.len(),
+                params.len()
+            )));
+        }
+        if outs.len() != self.outputs.len() {
+            return Err(shape_error(format!(
+                "expected {} output slices, got {}",
+                self.outputs.len(),
+                outs.len()
+            )));
+        }
+        let rows = match outs.first() {
+            Some(o) => o.len(),
+            None => return Ok(()),
+        };
+        if columns.len() != self.symbols.variables.len() {
+            return Err(shape_error(format!(
+                "expected {} data columns, got {}",
+                self.symbols.variables.len(),
+                columns.len()
+            )));
+        }
+        if columns.iter().any(|c| c.len() != rows) || outs.iter().any(|o| o.len() != rows) {
+            return Err(shape_error(
+                "data columns and outputs must all have the same number of rows".to_string(),
+            ));
+        }
+        let scalars = self.scalars(params);
+        let scalars_bad = self
+            .scalar_order
+            .iter()
+            .any(|&i| !scalars[i as usize].is_finite());
+        let mut regs: Vec<Vec<f64>> = vec![vec![0.0; CHUNK.min(rows.max(1))]; self.registers];
+        let mut lo = 0;
+        while lo < rows {
+            let hi = (lo + CHUNK).min(rows);
+            let len = hi - lo;
+            let mut bad = scalars_bad;
+            for ins in &self.program {
+                let mut out = std::mem::take(&mut regs[ins.out as usize]);
+                {
+                    let a = operand(ins.a, &regs, columns, &scalars, lo, hi);
+                    let b = operand(ins.b, &regs, columns, &scalars, lo, hi);
+                    exec(ins.op, &mut out[..len], a, b);
+                }
+                if checked && !bad && !all_finite(&out[..len]) {
+                    bad = true;
+                }
+                regs[ins.out as usize] = out;
+            }
+            for (k, src) in self.outputs.iter().enumerate() {
+                let dest = &mut outs[k][lo..hi];
+                match operand(*src, &regs, columns, &scalars, lo, hi) {
+                    V::S(s) => dest.copy_from_slice(s),
+                    V::C(c) => dest.fill(c),
+                }
+            }
+            if checked && (bad || outs.iter().any(|o| !all_finite(&o[lo..hi]))) {
+                self.locate(columns, params, lo, hi, outs)?;
+            }
+            lo = hi;
+        }
+        Ok(())
+    }
+
+    fn scalars(&self, params: &[f64]) -> Vec<f64> {
+        let mut vals = vec![0.0; self.keys.len()];
+        for &i in &self.scalar_order {
+            vals[i as usize] = match self.keys[i as usize] {
+                Key::Const(bits) => f64::from_bits(bits),
+                Key::Param(slot) => params.get(slot as usize).copied().unwrap_or(f64::NAN),
+                Key::Var(_) => f64::NAN,
+                Key::Op(op, a, b) => {
+                    let mut out = [0.0];
+                    let b = if b == NONE { 0.0 } else { vals[b as usize] };
+                    exec(op, &mut out, V::C(vals[a as usize]), V::C(b));
+                    out[0]
+                }
+            };
+        }
+        vals
+    }
+
+    /// Re-evaluates rows `lo..hi` with the checked reference evaluator and returns the
+    /// first genuine domain error.
+    fn locate(
+        &self,
+        columns: &[&[f64]],
+        params: &[f64],
+        lo: usize,
+        hi: usize,
+        outs: &[&mut [f64]],
+    ) -> Result<(), EvalError> {
+        for row in lo..hi {
+            let lookup = self.symbols.lookup(columns, params, row);
+            for e in &self.exprs {
+                if let Err(d) = eval_checked(e, &lookup) {
+                    return Err(EvalError {
+                        row,
+                        message: d.message,
+                        subexpr: d.subexpr,
+                    });
+                }
+            }
+            for (k, o) in outs.iter().enumerate() {
+                if !o[row].is_finite() {
+                    return Err(EvalError {
+                        row,
+                        message: format!("the result is {}", o[row]),
+                        subexpr: self.exprs[k].to_string(),
+                    });
+                }
+            }
+        }
+        Ok(())
+    }
+}
+
+fn all_finite(xs: &[f64]) -> bool {
+    // A fold without early exit so the compiler can vectorize it.
+    xs.iter().fold(true, |ok, v| ok & (v.abs() < f64::INFINITY))
+}
+
+#[derive(Clone, Copy)]
+enum V<'a> {
+    S(&'a [f64]),
+    C(f64),
+}
+
+fn operand<'a>(
+    src: Src,
+    regs: &'a [Vec<f64>],
+    columns: &'a [&[f64]],
+    scalars: &[f64],
+    lo: usize,
+    hi: usize,
+) -> V<'a> {
+    match src {
+        Src::Reg(r) => V::S(&regs[r as usize][..hi - lo]),
+        Src::Col(c) => V::S(&columns[c as usize][lo..hi]),
+        Src::Scalar(NONE) => V::C(0.0),
+        Src::Scalar(i) => V::C(scalars[i as usize]),
+    }
+}
+
+#[inline(always)]
+fn un(out: &mut [f64], a: V, f: impl Fn(f64) -> f64) {
+    match a {
+        V::S(x) => out.iter_mut().zip(x).for_each(|(o, &x)| *o = f(x)),
+        V::C(c) => out.fill(f(c)),
+    }
+}
+
+#[inline(always)]
+fn bin(out: &mut [f64], a: V, b: V, f: impl Fn(f64, f64) -> f64) {
+    match (a, b) {
+        (V::S(x), V::S(y)) => out
+            .iter_mut()
+            .zip(x.iter().zip(y))
+            .for_each(|(o, (&x, &y))| *o = f(x, y)),
+        (V::S(x), V::C(c)) => out.iter_mut().zip(x).for_each(|(o, &x)| *o = f(x, c)),
+        (V::C(c), V::S(y)) => out.iter_mut().zip(y).for_each(|(o, &y)| *o = f(c, y)),
+        (V::C(c), V::C(d)) => out.fill(f(c, d)),
+    }
+}
+
+/// Booleans are 1.0/0.0; a NaN operand gives NaN so that a bad value under a
+/// comparison is never silently read as "false".
+fn truth(b: bool) -> f64 {
+    f64::from(u8::from(b))
+}
+
+fn cmp(x: f64, y: f64, r: bool) -> f64 {
+    if x.is_nan() || y.is_nan() {
+        f64::NAN
+    } else {
+        truth(r)
+    }
+}
+
+fn exec(op: Op, out: &mut [f64], a: V, b: V) {
+    match op {
+        Op::Add => bin(out, a, b, |x, y| x + y),
+        Op::Sub => bin(out, a, b, |x, y| x - y),
+        Op::Mul => bin(out, a, b, |x, y| x * y),
+        Op::Div => bin(out, a, b, |x, y| x / y),
+        Op::Pow => bin(out, a, b, f64::powf),
+        Op::Neg => un(out, a, |x| -x),
+        Op::PowI(2) => un(out, a, |x| x * x),
+        Op::PowI(-1) => un(out, a, |x| 1.0 / x),
+        Op::PowI(k) => un(out, a, |x| x.powi(k)),
+        Op::Sqrt => un(out, a, f64::sqrt),
+        Op::F1(f) => match f {
+            Func::Exp => un(out, a, f64::exp),
+            Func::Ln => un(out, a, f64::ln),
+            Func::Log10 => un(out, a, f64::log10),
+            Func::Log2 => un(out, a, f64::log2),
+            Func::Sqrt => un(out, a, f64::sqrt),
+            Func::Abs => un(out, a, f64::abs),
+            Func::Sin => un(out, a, f64::sin),
+            Func::Cos => un(out, a, f64::cos),
+            Func::Tan => un(out, a, f64::tan),
+            Func::Asin => un(out, a, f64::asin),
+            Func::Acos => un(out, a, f64::acos),
+            Func::Atan => un(out, a, f64::atan),
+            Func::Sinh => un(out, a, f64::sinh),
+            Func::Cosh => un(out, a, f64::cosh),
+            Func::Tanh => un(out, a, f64::tanh),
+            two => un(out, a, |x| two.apply(x, 0.0)),
+        },
+        Op::F2(f) => match f {
+            Func::Atan2 => bin(out, a, b, f64::atan2),
+            Func::Min => bin(out, a, b, |x, y| Func::Min.apply(x, y)),
+            Func::Max => bin(out, a, b, |x, y| Func::Max.apply(x, y)),
+            other => bin(out, a, b, |x, y| other.apply(x, y)),
+        },
+        Op::Cmp(c) => match c {
+            CmpOp::Lt => bin(out, a, b, |x, y| cmp(x, y, x < y)),
+            CmpOp::Le => bin(out, a, b, |x, y| cmp(x, y, x <= y)),
+            CmpOp::Gt => bin(out, a, b, |x, y| cmp(x, y, x > y)),
+            CmpOp::Ge => bin(out, a, b, |x, y| cmp(x, y, x >= y)),
+            CmpOp::Eq => bin(out, a, b, |x, y| cmp(x, y, x == y)),
+            CmpOp::Ne => bin(out, a, b, |x, y| cmp(x, y, x != y)),
+        },
+        // Short-circuit semantics as in the reference evaluator: a false left side
+        // decides `&&` whatever the right side is (even NaN).
+        Op::And => bin(out, a, b, |x, y| {
+            if x.is_nan() {
+                f64::NAN
+            } else if x == 0.0 {
+                0.0
+            } else if y.is_nan() {
+                f64::NAN
+            } else {
+                truth(y != 0.0)
+            }
+        }),
+        Op::Or => bin(out, a, b, |x, y| {
+            if x.is_nan() {
+                f64::NAN
+            } else if x != 0.0 {
+                1.0
+            } else if y.is_nan() {
+                f64::NAN
+            } else {
+                truth(y != 0.0)
+            }
+        }),
+        Op::Not => un(out, a, |x| {
+            if x.is_nan() {
+                f64::NAN
+            } else {
+                truth(x == 0.0)
+            }
+        }),
+    }
+}
+
+struct Builder<'s> {
+    symbols: &'s Symbols,
+    keys: Vec<Key>,
+    memo: HashMap<Key, u32>,
+}
+
+impl Builder<'_> {
+    fn value(&mut self, key: Key) -> u32 {
+        if let Some(&id) = self.memo.get(&key) {
+            return id;
+        }
+        let id = self.keys.len() as u32;
+        self.keys.push(key);
+        self.memo.insert(key, id);
+        id
+    }
+
+    fn op(&mut self, op: Op, a: u32, b: u32) -> u32 {
+        self.value(Key::Op(op, a, b))
+    }
+
+    /// Lowers `root` to graph values by an explicit post-order walk (no recursion, so
+    /// tree depth never matters here).
+    fn lower(&mut self, root: &Expr) -> Result<u32, ExprError> {
+        enum Task<'e> {
+            Visit(&'e Expr),
+            Build(&'e Expr),
+        }
+        let mut tasks = vec![Task::Visit(root)];
+        let mut values: Vec<u32> = Vec::new();
+        while let Some(task) = tasks.pop() {
+            match task {
+                Task::Visit(e) => match &e.kind {
+                    ExprKind::Number(v) => values.push(self.value(Key::Const(v.to_bits()))),
+                    ExprKind::Name(n) => values.push(self.name(n, e)?),
+                    _ => {
+                        tasks.push(Task::Build(e));
+                        for child in operands(e).into_iter().rev() {
+                            tasks.push(Task::Visit(child));
+                        }
+                    }
+                },
+                Task::Build(e) => {
+                    let n = operands(e).len();
+                    let at = values.len().checked_sub(n).ok_or_else(|| {
+                        ExprError::new(e.span, "internal error: operand stack underflow")
+                    })?;
+                    let args = values.split_off(at);
+                    let v = self.build(e, &args)?;
+                    values.push(v);
+                }
+            }
+        }
+        values
+            .pop()
+            .ok_or_else(|| ExprError::new(root.span, "internal error: empty expression"))
+    }
+
+    fn name(&mut self, n: &str, e: &Expr) -> Result<u32, ExprError> {
+        if let Some(i) = self.symbols.variables.iter().position(|v| v == n) {
+            Ok(self.value(Key::Var(i as u32)))
+        } else if let Some(i) = self.symbols.parameters.iter().position(|p| p == n) {
+            Ok(self.value(Key::Param(i as u32)))
+        } else if n == "pi" {
+            Ok(self.value(Key::Const(std::f64::consts::PI.to_bits())))
+        } else {
+            let vars: Vec<&str> = self.symbols.variables.iter().map(String::as_str).collect();
+            let pars: Vec<&str> = self.symbols.parameters.iter().map(String::as_str).collect();
+            Err(super::resolve::unknown_name(n, e.span, &vars, &pars))
+        }
+    }
+
+    /// Builds the value of `e` from the values of its [`operands`].
+    fn build(&mut self, e: &Expr, args: &[u32]) -> Result<u32, ExprError> {
+        let arg = |i: usize| args.get(i).copied().unwrap_or(NONE);
+        Ok(match &e.kind {
+            ExprKind::Number(_) | ExprKind::Name(_) => arg(0),
+            ExprKind::Neg(_) => self.op(Op::Neg, arg(0), NONE),
+            ExprKind::Not(_) => self.op(Op::Not, arg(0), NONE),
+            ExprKind::Sum { rest, .. } => {
+                let mut acc = arg(0);
+                for (i, (op, _)) in rest.iter().enumerate() {
+                    let op = match op {
+                        AddOp::Add => Op::Add,
+                        AddOp::Sub => Op::Sub,
+                    };
+                    acc = self.op(op, acc, arg(i + 1));
+                }
+                acc
+            }
+            ExprKind::Product { rest, .. } => {
+                let mut acc = arg(0);
+                for (i, (op, _)) in rest.iter().enumerate() {
+                    let op = match op {
+                        MulOp::Mul => Op::Mul,
+                        MulOp::Div => Op::Div,
+                    };
+                    acc = self.op(op, acc, arg(i + 1));
+                }
+                acc
+            }
+            ExprKind::Pow(_, exponent) => self.power(arg(0), exponent, arg(1)),
+            ExprKind::Call {
+                func,
+                args: call_args,
+            } => match (func, call_args.len()) {
+                (Func::Pow, 2) => self.power(arg(0), &call_args[1], arg(1)),
+                (Func::Sqrt, 1) => self.op(Op::Sqrt, arg(0), NONE),
+                (f, 1) => self.op(Op::F1(*f), arg(0), NONE),
+                (f, 2) => self.op(Op::F2(*f), arg(0), arg(1)),
+                _ => {
+                    return Err(ExprError::new(
+                        e.span,
+                        format!("`{func}` called with {} arguments", call_args.len()),
+                    ));
+                }
+            },
+            ExprKind::Compare(op, ..) => self.op(Op::Cmp(*op), arg(0), arg(1)),
+            ExprKind::Logic { op, .. } => {
+                let op = match op {
+                    LogicOp::And => Op::And,
+                    LogicOp::Or => Op::Or,
+                };
+                let mut acc = arg(0);
+                for i in 1..args.len() {
+                    acc = self.op(op, acc, arg(i));
+                }
+                acc
+            }
+        })
+    }
+
+    /// Constant exponents get cheaper instructions: `x^2` is `x*x`, `x^0.5` is `sqrt(x)`
+    /// (`exponent_value` is `NONE` when the exponent is such a literal and not lowered).
+    fn power(&mut self, base: u32, exponent: &Expr, exponent_value: u32) -> u32 {
+        match cheap_power(exponent) {
+            Some(op) => self.op(op, base, NONE),
+            None => self.op(Op::Pow, base, exponent_value),
+        }
+    }
+}
+
+/// The instruction for a literal exponent that has one.
+fn cheap_power(exponent: &Expr) -> Option<Op> {
+    let k = literal(exponent)?;
+    if k == 0.5 {
+        Some(Op::Sqrt)
+    } else if k.fract() == 0.0 && k.abs() <= 64.0 {
+        Some(Op::PowI(k as i32))
+    } else {
+        None
+    }
+}
+
+/// The sub-expressions whose values an instruction for `e` needs: all children, except
+/// a literal exponent that becomes part of the instruction.
+fn operands(e: &Expr) -> Vec<&Expr> {
+    match &e.kind {
+        ExprKind::Pow(base, exponent) if cheap_power(exponent).is_some() => vec![base],
+        ExprKind::Call {
+            func: Func::Pow,
+            args,
+        } if args.len() == 2 && cheap_power(&args[1]).is_some() => vec![&args[0]],
+        _ => e.children(),
+    }
+}
+
+/// The value of a literal number or negated literal.
+fn literal(e: &Expr) -> Option<f64> {
+    match &e.kind {
+        ExprKind::Number(v) => Some(*v),
+        ExprKind::Neg(inner) => literal(inner).map(|v| -v),
+        _ => None,
+    }
+}

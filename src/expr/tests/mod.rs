@@ -1,0 +1,5 @@
+//! Tests of the expression engine.
+
+mod engine;
+mod errors;
+mod props;
