@@ -792,6 +792,11 @@ fn validate(
                 row,
             });
         }
+        if wt.iter().all(|v| *v == 0.0) {
+            return Err(LmError::Dimension(
+                "all weights are zero: nothing to fit".into(),
+            ));
+        }
     }
     for (j, b) in bounds.iter().enumerate() {
         if b.lower.is_nan() || b.upper.is_nan() || b.lower > b.upper {
@@ -1015,6 +1020,15 @@ mod tests {
         assert!(matches!(
             fit(&m, &obs, &[5.0, 1.0], Some(&b), &o),
             Err(LmError::InvalidStart { param: 0, .. })
+        ));
+        let zero = vec![0.0; y.len()];
+        let obs0 = Observations {
+            y: &y,
+            weights: Some(&zero),
+        };
+        assert!(matches!(
+            fit(&m, &obs0, &[1.0, 1.0], None, &o),
+            Err(LmError::Dimension(_))
         ));
         let mut bad = y.clone();
         bad[2] = f64::INFINITY;

@@ -188,5 +188,11 @@ pub fn render(dir: &Path) -> String {
             printed.join(", ")
         );
     }
+    let _ = writeln!(
+        w,
+        "- **Rat43 (degrees of freedom)**: the file prints 9 degrees of freedom for n = 15, p = 4; \
+         its certified residual SD equals √(RSS/11), so n − p = 11 is used (checked by \
+         `every_strd_file_parses_and_is_self_consistent`)."
+    );
     s
 }
