@@ -123,3 +123,48 @@ fn roszman1_printed_b1_contradicts_the_certified_rss() {
         "corrected value does not reproduce the RSS"
     );
 }
+
+#[test]
+fn inactive_bounds_leave_the_certified_solution_unchanged() {
+    // BoxBOD from the far start with a box that holds the certified solution inside it
+    // (NIST: b1 = 213.81, b2 = 0.547): the bounded fit must reach the same certified values.
+    use fitwright::fit::lm::{self, Bound, LmOptions, Observations};
+    use support::nonlinear_cases::start_values;
+    let Some(dir) = strd_dir_or_skip("inactive_bounds_leave_the_certified_solution_unchanged")
+    else {
+        return;
+    };
+    let prep = prepare(&dir, "BoxBOD");
+    let obs = Observations {
+        y: &prep.y,
+        weights: None,
+    };
+    let bounds = [
+        Bound {
+            lower: 0.0,
+            upper: 1000.0,
+        },
+        Bound {
+            lower: 0.0,
+            upper: 10.0,
+        },
+    ];
+    let start = start_values(&prep.problem, 1);
+    let out = lm::fit(
+        &prep.model,
+        &obs,
+        &start,
+        Some(&bounds),
+        &LmOptions::default(),
+    )
+    .unwrap();
+    assert!(out.stop.converged(), "{}", out.stop);
+    assert_eq!(out.at_bound, [false, false]);
+    for (b, c) in out.params.iter().zip(&prep.problem.parameters) {
+        assert!(
+            lre(*b, c.value, c.value_digits) >= MIN_PARAM_LRE,
+            "{b} vs {}",
+            c.value
+        );
+    }
+}

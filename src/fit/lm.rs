@@ -546,13 +546,33 @@ pub fn fit<M: Model + ?Sized>(
                     },
                 };
             }
-            let solved =
+            let mut ok =
                 dense::damped_solve(&w.qr, &w.diag, lambda, &w.qte, &mut w.damped, &mut w.v);
-            let mut ok = solved;
-            if ok && options.geodesic_acceleration {
+            // Predicted reduction of the linear model for the velocity part u of the step
+            // (u = v projected into the box): 2·(Ru)ᵀ(Qᵀe) − ‖Ru‖². The acceleration corrects
+            // for curvature the linear model does not see, so the gain ratio compares the
+            // actual reduction of v + a/2 with the reduction predicted for v (Transtrum &
+            // Sethna 2012, §III).
+            let mut pred = 0.0;
+            if ok {
+                for j in 0..p {
+                    w.rstep[j] =
+                        (w.theta[j] + w.v[j]).clamp(bounds[j].lower, bounds[j].upper) - w.theta[j];
+                }
+                for i in 0..p {
+                    let mut s = 0.0;
+                    for k in i..p {
+                        s += w.qr[(i, k)] * w.rstep[k];
+                    }
+                    pred += 2.0 * s * w.qte[i] - s * s;
+                }
+            }
+            // Below a predicted relative reduction of ftol the second-order correction is
+            // beneath the resolution of the stop test; skipping it saves a model evaluation
+            // per trial in the final, noise-limited iterations.
+            w.a.fill(0.0);
+            if ok && options.geodesic_acceleration && pred > options.ftol * ssr {
                 ok = acceleration(model, obs, &mut w, lambda, &mut nfev);
-            } else {
-                w.a.fill(0.0);
             }
             if ok {
                 // Trial point, projected into the box.
@@ -565,23 +585,6 @@ pub fn fit<M: Model + ?Sized>(
                 ok = w.step.iter().all(|s| s.is_finite());
             }
             if ok {
-                // Predicted reduction of the linear model for the velocity part u of the step
-                // (u = projected v; with acceleration off u = δ): 2·(Ru)ᵀ(Qᵀe) − ‖Ru‖².
-                // The acceleration corrects for curvature the linear model does not see, so
-                // the gain ratio compares the actual reduction of v + a/2 with the reduction
-                // predicted for v (Transtrum & Sethna 2012, §III).
-                for j in 0..p {
-                    w.rstep[j] =
-                        (w.theta[j] + w.v[j]).clamp(bounds[j].lower, bounds[j].upper) - w.theta[j];
-                }
-                let mut pred = 0.0;
-                for i in 0..p {
-                    let mut s = 0.0;
-                    for k in i..p {
-                        s += w.qr[(i, k)] * w.rstep[k];
-                    }
-                    pred += 2.0 * s * w.qte[i] - s * s;
-                }
                 let rel_step = (0..p)
                     .map(|j| w.step[j].abs() / (w.theta[j].abs() + options.xtol))
                     .fold(0.0_f64, f64::max);
@@ -788,6 +791,11 @@ fn validate(
                 what: "weight",
                 row,
             });
+        }
+        if wt.iter().all(|v| *v == 0.0) {
+            return Err(LmError::Dimension(
+                "all weights are zero: nothing to fit".into(),
+            ));
         }
     }
     for (j, b) in bounds.iter().enumerate() {
@@ -1012,6 +1020,15 @@ mod tests {
         assert!(matches!(
             fit(&m, &obs, &[5.0, 1.0], Some(&b), &o),
             Err(LmError::InvalidStart { param: 0, .. })
+        ));
+        let zero = vec![0.0; y.len()];
+        let obs0 = Observations {
+            y: &y,
+            weights: Some(&zero),
+        };
+        assert!(matches!(
+            fit(&m, &obs0, &[1.0, 1.0], None, &o),
+            Err(LmError::Dimension(_))
         ));
         let mut bad = y.clone();
         bad[2] = f64::INFINITY;

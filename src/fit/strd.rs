@@ -430,7 +430,8 @@ pub fn lre(estimate: f64, certified: f64, digits: u32) -> f64 {
     if certified != 0.0 && err > 1.0 {
         return 0.0;
     }
-    (-err.log10()).clamp(0.0, cap)
+    // `+ 0.0` turns −0 (an error of exactly 100 %) into 0.
+    (-err.log10()).clamp(0.0, cap) + 0.0
 }
 
 #[cfg(test)]

@@ -3,6 +3,7 @@
 //! computations.
 #![allow(dead_code)]
 
+pub mod conformance_table;
 pub mod linear_cases;
 pub mod nist_models;
 pub mod nonlinear_cases;
