@@ -1,1 +1,2 @@
 //! fitwright: calibration fits from TOML recipes.
+pub mod report;
