@@ -22,6 +22,7 @@ pub mod format;
 pub mod markdown;
 pub mod plot;
 pub mod templates;
+pub mod write;
 
 pub use context::*;
 pub use plot::Svg;
