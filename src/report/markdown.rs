@@ -215,7 +215,11 @@ fn longest_backtick_run(text: &str) -> usize {
 /// User text as an inline code span (equations, file names), delimited by
 /// more backticks than the text holds (CommonMark 0.31 §6.1). Not for table
 /// cells: use [`code_cell`].
+/// Empty text gives an empty string (an empty code span cannot be written).
 pub fn code_span(text: &str) -> String {
+    if text.is_empty() {
+        return String::new();
+    }
     let text: String = text
         .chars()
         .map(|c| if c == '\n' || c == '\r' { ' ' } else { c })
@@ -328,6 +332,7 @@ mod tests {
     #[test]
     fn code_spans_survive_backticks_and_pipes() {
         assert_eq!(code_span("R = a*b"), "`R = a*b`");
+        assert_eq!(code_span(""), "");
         assert_eq!(code_span("a`b"), "``a`b``");
         assert_eq!(code_span("`x"), "`` `x ``");
         assert_eq!(code_cell("a|b"), "`a\\|b`");

@@ -26,7 +26,7 @@ use std::path::{Path, PathBuf};
 use minijinja::{AutoEscape, Environment, Error, ErrorKind, State, UndefinedBehavior, Value};
 use sha2::{Digest, Sha256};
 
-use super::context::ReportContext;
+use super::context::{ReportContext, Traceability};
 use super::markdown;
 use super::{ReportError, ReportErrorKind, Result};
 
@@ -270,6 +270,13 @@ impl Templates {
         }
     }
 
+    /// Sets the template fields of the traceability section
+    /// (`templates_sha256`, `templates_source`) from these templates.
+    pub fn fill_traceability(&self, traceability: &mut Traceability) {
+        traceability.templates_sha256 = self.sha256();
+        traceability.templates_source = self.source_label();
+    }
+
     /// Renders `report.html.j2`.
     pub fn render_html(&self, ctx: &ReportContext) -> Result<String> {
         self.render(HTML_TEMPLATE, ctx)
@@ -356,6 +363,10 @@ mod tests {
         assert!(html.contains("Probe X"));
         assert!(md.contains("Probe X"));
         assert_eq!(t.source_label(), "built-in");
+        let mut ctx = minimal();
+        t.fill_traceability(&mut ctx.traceability);
+        assert_eq!(ctx.traceability.templates_sha256, t.sha256());
+        assert_eq!(ctx.traceability.templates_source, "built-in");
     }
 
     #[test]
