@@ -19,6 +19,7 @@ pub mod init;
 pub mod pipeline;
 pub mod recipe;
 pub mod recipes;
+pub mod report;
 pub mod result;
 pub mod source;
 
