@@ -505,14 +505,12 @@ pub fn fit<M: Model + ?Sized>(
         let enorm = dense::norm2(&w.e);
         let mut gnorm = 0.0_f64;
         for j in 0..p {
-            let col = w.jac.column(j);
-            let mut g = 0.0;
+            let col = &w.jac.as_slice()[j * n..(j + 1) * n];
             let qcol = &mut w.qr.as_mut_slice()[j * n..(j + 1) * n];
-            for i in 0..n {
-                let v = col[i] * w.sqrt_w[i];
-                qcol[i] = v;
-                g += v * w.e[i];
+            for ((q, c), s) in qcol.iter_mut().zip(col).zip(&w.sqrt_w) {
+                *q = c * s;
             }
+            let g = dense::dot(qcol, &w.e);
             let c = dense::norm2(qcol);
             w.col_norm[j] = c;
             w.diag[j] = w.diag[j].max(c);
@@ -711,13 +709,18 @@ fn acceleration<M: Model + ?Sized>(
     {
         return true;
     }
-    // rhs = −W½·f_vv with f_vv ≈ (2/h)·((f(θ + h·v) − f(θ))/h − J·v).
-    for i in 0..n {
-        let mut jv = 0.0;
-        for j in 0..p {
-            jv += w.jac[(i, j)] * w.v[j];
+    // rhs = −W½·f_vv with f_vv ≈ (2/h)·((f(θ + h·v) − f(θ))/h − J·v); J·v accumulated
+    // column by column (contiguous in the column-major Jacobian) into rhs first.
+    w.rhs.fill(0.0);
+    for j in 0..p {
+        let vj = w.v[j];
+        let col = &w.jac.as_slice()[j * n..(j + 1) * n];
+        for (r, c) in w.rhs.iter_mut().zip(col) {
+            *r += c * vj;
         }
-        let fvv = (2.0 / ACCEL_H) * ((w.f_trial[i] - w.f[i]) / ACCEL_H - jv);
+    }
+    for i in 0..n {
+        let fvv = (2.0 / ACCEL_H) * ((w.f_trial[i] - w.f[i]) / ACCEL_H - w.rhs[i]);
         w.rhs[i] = -w.sqrt_w[i] * fvv;
     }
     dense::apply_qt(&w.qr, &w.tau, &mut w.rhs);
