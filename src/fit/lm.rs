@@ -21,6 +21,11 @@
 //! linear model), a step is accepted when ρ > 0 and then λ ← λ·max(1/3, 1 − (2ρ − 1)³), ν ← 2;
 //! otherwise λ ← λ·ν, ν ← 2ν. Initial λ = τ (default 10⁻³, Nielsen's suggestion for a start
 //! of unknown quality); with the scaled damping term this is τ·‖J_w,j‖² per parameter.
+//! The actual reduction is computed as Σ (eᵢ − ẽᵢ)(eᵢ + ẽᵢ), and a step is also accepted
+//! (λ unchanged) when the linear model predicts a reduction below ftol·SSR and the actual
+//! change lies within the rounding noise of evaluating SSR: there the comparison cannot
+//! decide, and rejecting would stop large-residual problems short of their minimum
+//! (our addition; see `reduction_and_noise`).
 //!
 //! # Geodesic acceleration (optional, on by default)
 //! Transtrum & Sethna, "Improvements to the Levenberg–Marquardt algorithm for nonlinear
