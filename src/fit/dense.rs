@@ -8,9 +8,14 @@
 
 use nalgebra::DMatrix;
 
-/// Euclidean norm of `x`, scaled so that squares neither overflow nor underflow
-/// (the idea of LAPACK's `dnrm2`, from memory).
+/// Euclidean norm of `x`. One pass of plain sums of squares; when that overflows or falls
+/// into the range where squares underflow, a second pass scales by the largest entry (the
+/// idea of LAPACK's `dnrm2`, from memory).
 pub(crate) fn norm2(x: &[f64]) -> f64 {
+    let sum = dot(x, x);
+    if sum.is_finite() && sum > 1e-280 {
+        return sum.sqrt();
+    }
     let scale = x.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
     if scale == 0.0 || !scale.is_finite() {
         return scale;
@@ -18,6 +23,38 @@ pub(crate) fn norm2(x: &[f64]) -> f64 {
     let inv = 1.0 / scale;
     let sum: f64 = x.iter().map(|v| (v * inv) * (v * inv)).sum();
     scale * sum.sqrt()
+}
+
+/// Σ aᵢ·bᵢ over the common length, with four partial sums (lets the compiler keep several
+/// multiply-adds in flight; the summation order differs from a plain loop only by rounding).
+#[inline]
+pub(crate) fn dot(a: &[f64], b: &[f64]) -> f64 {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let mut acc = [0.0_f64; 4];
+    let mut ca = a.chunks_exact(4);
+    let mut cb = b.chunks_exact(4);
+    for (x, y) in (&mut ca).zip(&mut cb) {
+        acc[0] += x[0] * y[0];
+        acc[1] += x[1] * y[1];
+        acc[2] += x[2] * y[2];
+        acc[3] += x[3] * y[3];
+    }
+    let tail: f64 = ca
+        .remainder()
+        .iter()
+        .zip(cb.remainder())
+        .map(|(x, y)| x * y)
+        .sum();
+    (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
+}
+
+/// y ← y − α·x over the common length.
+#[inline]
+fn sub_scaled(y: &mut [f64], alpha: f64, x: &[f64]) {
+    for (yi, xi) in y.iter_mut().zip(x) {
+        *yi -= alpha * xi;
+    }
 }
 
 /// Householder QR of the `n × p` matrix `a` (n ≥ p) in place, LAPACK `dgeqr2` layout:
@@ -56,15 +93,9 @@ pub(crate) fn householder_qr_in_place(a: &mut DMatrix<f64>, tau: &mut [f64]) {
         // Apply Hⱼ to the remaining columns.
         for k in j + 1..p {
             let (vj, ck) = column_pair(a, j, k);
-            let mut s = ck[j];
-            for i in j + 1..n {
-                s += vj[i] * ck[i];
-            }
-            s *= t;
+            let s = t * (ck[j] + dot(&vj[j + 1..n], &ck[j + 1..n]));
             ck[j] -= s;
-            for i in j + 1..n {
-                ck[i] -= s * vj[i];
-            }
+            sub_scaled(&mut ck[j + 1..n], s, &vj[j + 1..n]);
         }
     }
 }
@@ -85,16 +116,10 @@ pub(crate) fn apply_qt(qr: &DMatrix<f64>, tau: &[f64], b: &mut [f64]) {
         if tau[j] == 0.0 {
             continue;
         }
-        let v = &qr.as_slice()[j * n..(j + 1) * n];
-        let mut s = b[j];
-        for i in j + 1..n {
-            s += v[i] * b[i];
-        }
-        s *= tau[j];
+        let v = &qr.as_slice()[j * n + j + 1..(j + 1) * n];
+        let s = tau[j] * (b[j] + dot(v, &b[j + 1..n]));
         b[j] -= s;
-        for i in j + 1..n {
-            b[i] -= s * v[i];
-        }
+        sub_scaled(&mut b[j + 1..n], s, v);
     }
 }
 
