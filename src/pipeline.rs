@@ -3,17 +3,21 @@
 
 use std::path::Path;
 
-use crate::data;
 use crate::error::Result;
 use crate::recipe;
 
 /// Validate a recipe and its data; a one-line summary on success.
 pub fn check(path: &Path) -> Result<String> {
     let recipe = recipe::load(path)?;
-    let wanted = data::mapped_columns(&recipe);
-    let ds = data::load(&recipe, &wanted)?;
+    let prep = crate::model::prepare(&recipe)?;
+    let ds = &prep.data;
+    let filtered = if prep.rows_filtered > 0 {
+        format!(", {} filtered out", prep.rows_filtered)
+    } else {
+        String::new()
+    };
     Ok(format!(
-        "{}: {} rows from {} file{}",
+        "{}: {} rows from {} file{}{filtered}",
         recipe.name.value,
         ds.len(),
         ds.files.len(),

@@ -338,11 +338,11 @@ fn missing_skip_skips_rows() {
         "files = [\"d.csv\"]",
         "files = [\"d.csv\"]\nmissing = \"skip\"",
     );
-    let data = "temp_c,resistance_ohm\n0,10.0\n10,\n20,14.9\n30,nan\n";
+    let data = "temp_c,resistance_ohm\n0,10.0\n10,\n20,14.9\n30,nan\n40,22.3\n";
     case(&r, data)
         .run(&["check", "r.toml"])
         .expect_code(0)
-        .expect_contains(&["2 rows"]);
+        .expect_contains(&["3 rows"]);
 }
 
 #[test]
@@ -410,11 +410,11 @@ fn whitespace_format_by_extension() {
 
 #[test]
 fn quoted_fields_follow_rfc_4180() {
-    let data = "\"temp_c\",\"resistance_ohm\"\n\"0\",\"10.0\"\n\"10\",\"12.1\"\n";
+    let data = "\"temp_c\",\"resistance_ohm\"\n\"0\",\"10.0\"\n\"10\",\"12.1\"\n\"20\",\"14.9\"\n";
     case(RECIPE, data)
         .run(&["check", "r.toml"])
         .expect_code(0)
-        .expect_contains(&["2 rows"]);
+        .expect_contains(&["3 rows"]);
 }
 
 #[test]
