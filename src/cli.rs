@@ -26,6 +26,35 @@ enum Command {
         /// Recipe files or folders (walked for *.toml). Default: recipes/
         paths: Vec<PathBuf>,
     },
+    /// Fit, judge and report recipes (files, or folders walked for *.toml).
+    Run {
+        /// Recipe files or folders. Default: recipes/
+        paths: Vec<PathBuf>,
+        /// Write reports to DIR/{name} instead of each recipe's [report] dir.
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
+        /// Output formats, comma-separated (html, md, json); overrides [report] formats.
+        #[arg(long, value_delimiter = ',')]
+        format: Option<Vec<String>>,
+        /// Recipes run at once (default: one per core).
+        #[arg(long, value_name = "N")]
+        jobs: Option<usize>,
+        /// Print the summary as JSON on stdout.
+        #[arg(long)]
+        json: bool,
+        /// Write a JUnit XML file, one test case per recipe.
+        #[arg(long, value_name = "FILE")]
+        junit: Option<PathBuf>,
+        /// Do not append to the history.
+        #[arg(long)]
+        no_history: bool,
+        /// Run only shard K of N (a deterministic split by recipe path).
+        #[arg(long, value_name = "K/N")]
+        shard: Option<String>,
+        /// No progress bar and no per-recipe details.
+        #[arg(long)]
+        quiet: bool,
+    },
     /// Write a commented starter recipe NAME.toml in the current folder.
     Init {
         /// Recipe name ([a-z0-9._-]+); also the file name.
@@ -51,6 +80,27 @@ pub fn main() -> i32 {
     };
     let result = match cli.command {
         Command::Check { paths } => check(&default_paths(paths)),
+        Command::Run {
+            paths,
+            out,
+            format,
+            jobs,
+            json,
+            junit,
+            no_history,
+            shard,
+            quiet,
+        } => run(RunArgs {
+            paths: default_paths(paths),
+            out,
+            format,
+            jobs,
+            json,
+            junit,
+            no_history,
+            shard,
+            quiet,
+        }),
         Command::Init { name, preset, data } => init(&name, preset.as_deref(), data.as_deref()),
     };
     match result {
@@ -112,4 +162,88 @@ fn init(name: &str, preset: Option<&str>, data: Option<&std::path::Path>) -> Res
         path.display()
     );
     Ok(0)
+}
+
+struct RunArgs {
+    paths: Vec<PathBuf>,
+    out: Option<PathBuf>,
+    format: Option<Vec<String>>,
+    jobs: Option<usize>,
+    json: bool,
+    junit: Option<PathBuf>,
+    no_history: bool,
+    shard: Option<String>,
+    quiet: bool,
+}
+
+/// The time of a run: `SOURCE_DATE_EPOCH` when set (reproducible output), else now.
+fn run_time() -> Result<(i64, bool)> {
+    match std::env::var("SOURCE_DATE_EPOCH") {
+        Ok(v) => crate::report::write::parse_source_date_epoch(&v)
+            .map(|t| (t, true))
+            .map_err(|e| {
+                Error::usage(format!("SOURCE_DATE_EPOCH: {e}"))
+                    .help("set it to whole seconds since 1970-01-01 UTC, or unset it")
+            }),
+        Err(_) => {
+            let now = std::time::SystemTime::now()
+                .duration_since(std::time::UNIX_EPOCH)
+                .map_err(|e| Error::internal(format!("the clock is before 1970: {e}")))?;
+            Ok((now.as_secs() as i64, false))
+        }
+    }
+}
+
+/// `fitwright run`.
+fn run(args: RunArgs) -> Result<i32> {
+    let recipes = crate::recipes::collect(&args.paths)?;
+    let formats = match &args.format {
+        None => None,
+        Some(list) => {
+            let mut out = Vec::new();
+            for f in list {
+                out.push(crate::recipe::ReportFormat::parse(f.trim()).ok_or_else(|| {
+                    Error::usage(format!("`--format {f}` is not a report format"))
+                        .help("use html, md and/or json, comma-separated")
+                })?);
+            }
+            Some(out)
+        }
+    };
+    let shard = args
+        .shard
+        .as_deref()
+        .map(crate::batch::parse_shard)
+        .transpose()?;
+    let (time, from_epoch) = run_time()?;
+    let settings = crate::pipeline::RunSettings {
+        out: args.out.clone(),
+        formats,
+        history: !args.no_history,
+        time,
+        time_from_epoch: from_epoch,
+        verbose: recipes.len() == 1 && !args.quiet && !args.json,
+    };
+    let options = crate::batch::BatchOptions {
+        jobs: args.jobs,
+        quiet: args.quiet || args.json,
+        shard,
+    };
+    let outcomes = crate::batch::run_all(&recipes, &options, |p| {
+        crate::pipeline::run_recipe(p, &settings)
+    })?;
+    for o in &outcomes {
+        if let Some(e) = &o.error {
+            eprint!("{e}");
+        }
+    }
+    if args.json {
+        println!("{}", crate::batch::json_summary(&outcomes));
+    } else {
+        print!("{}", crate::batch::summary_table(&outcomes));
+    }
+    if let Some(path) = &args.junit {
+        crate::fsutil::write_atomic(path, crate::batch::junit_xml(&outcomes).as_bytes())?;
+    }
+    Ok(crate::batch::exit_code(&outcomes))
 }
