@@ -55,6 +55,11 @@ enum Command {
         #[arg(long)]
         quiet: bool,
     },
+    /// Re-hash a stored result's inputs, re-run it, and say whether it reproduces.
+    Verify {
+        /// A result.json written by `fitwright run`.
+        result: PathBuf,
+    },
     /// Write a commented starter recipe NAME.toml in the current folder.
     Init {
         /// Recipe name ([a-z0-9._-]+); also the file name.
@@ -101,6 +106,7 @@ pub fn main() -> i32 {
             shard,
             quiet,
         }),
+        Command::Verify { result } => verify(&result),
         Command::Init { name, preset, data } => init(&name, preset.as_deref(), data.as_deref()),
     };
     match result {
@@ -223,6 +229,7 @@ fn run(args: RunArgs) -> Result<i32> {
         time,
         time_from_epoch: from_epoch,
         verbose: recipes.len() == 1 && !args.quiet && !args.json,
+        history_before: None,
     };
     let options = crate::batch::BatchOptions {
         jobs: args.jobs,
@@ -246,4 +253,22 @@ fn run(args: RunArgs) -> Result<i32> {
         crate::fsutil::write_atomic(path, crate::batch::junit_xml(&outcomes).as_bytes())?;
     }
     Ok(crate::batch::exit_code(&outcomes))
+}
+
+/// `fitwright verify`: exit 0 when inputs are unchanged and results reproduce, else 1.
+fn verify(result: &std::path::Path) -> Result<i32> {
+    let f = crate::verify::verify(result)?;
+    for m in &f.matched {
+        println!("ok       {m}");
+    }
+    for d in &f.differences {
+        println!("DIFFERS  {d}");
+    }
+    if f.differences.is_empty() {
+        println!("verified: the inputs are unchanged and the results reproduce");
+        Ok(0)
+    } else {
+        println!("not verified: {} difference(s)", f.differences.len());
+        Ok(1)
+    }
 }

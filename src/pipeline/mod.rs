@@ -50,6 +50,9 @@ pub struct RunSettings {
     pub time_from_epoch: bool,
     /// Print the full summary of each recipe (single-recipe runs).
     pub verbose: bool,
+    /// Read the history only up to (not including) this run id — `verify` re-runs a past run
+    /// against the history as it was then.
+    pub history_before: Option<String>,
 }
 
 /// Where a recipe's runs and history go (SPEC §13).
@@ -94,7 +97,12 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     let solved = solve::solve(&recipe, &prep)?;
     let diag = diagnostics::compute(&prep, &solved);
     let dir = report_dir(&recipe, settings);
-    let (history, mut warnings) = history::read(&dir.join("history.jsonl"))?;
+    let (mut history, mut warnings) = history::read(&dir.join("history.jsonl"))?;
+    if let Some(before) = &settings.history_before
+        && let Some(i) = history.iter().position(|h| h.run_id == *before)
+    {
+        history.truncate(i);
+    }
     let baseline = history::last_accepted(&history, None).map(|h| Baseline {
         run_id: h.run_id.clone(),
         params: h

@@ -613,8 +613,16 @@ pub fn report_context(
         report::StatRow::new("p", "free parameters p", st.p.to_string()),
         report::StatRow::new("dof", "degrees of freedom n − p", st.dof.to_string()),
         report::StatRow::new("ssr", "residual sum of squares Σw·e²", fmt::num(st.ssr)),
-        report::StatRow::new("r_squared", r2_label(solved), opt(st.r_squared)),
-        report::StatRow::new("adj_r_squared", "adjusted R²", opt(st.adj_r_squared)),
+        report::StatRow::new(
+            "r_squared",
+            r2_label(solved),
+            st.r_squared.map_or("—".into(), |r| fmt::sig(r, 8)),
+        ),
+        report::StatRow::new(
+            "adj_r_squared",
+            "adjusted R²",
+            st.adj_r_squared.map_or("—".into(), |r| fmt::sig(r, 8)),
+        ),
         report::StatRow::new(
             "std_error",
             "standard error of the estimate s = √(SSR/(n−p))",
