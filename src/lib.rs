@@ -1,2 +1,3 @@
 //! fitwright: calibration fits from TOML recipes.
+pub mod analysis;
 pub mod expr;
