@@ -6,6 +6,7 @@
 #![cfg_attr(not(test), deny(clippy::unwrap_used))]
 
 pub mod acceptance;
+pub mod analysis;
 pub mod batch;
 pub mod cli;
 pub mod data;

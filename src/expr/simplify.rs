@@ -27,6 +27,10 @@ use super::sym::{Node, cmp_nodes, split_coefficient};
 pub enum Mode {
     /// Value-preserving rewrites only; no expansion.
     Canonical,
+    /// Also the domain-restricted identities, recording conditions, but no expansion:
+    /// run before [`Mode::Expand`] so that `sqrt((a + b·x)^2)` collapses to `a + b·x`
+    /// before the square is multiplied out.
+    Collapse,
     /// Also expand and apply the domain-restricted identities, recording conditions.
     Expand,
 }
@@ -59,6 +63,14 @@ impl Simplifier {
             mode,
             conditions: Vec::new(),
         }
+    }
+
+    fn expanding(&self) -> bool {
+        self.mode == Mode::Expand
+    }
+
+    fn restricted(&self) -> bool {
+        self.mode != Mode::Canonical
     }
 
     /// Simplifies until the form no longer changes (at most a few passes).
@@ -207,7 +219,7 @@ impl Simplifier {
         if coef == 0.0 {
             return Node::num(0.0);
         }
-        if self.mode == Mode::Expand
+        if self.expanding()
             && out.iter().any(|f| matches!(f, Node::Add(_)))
             && let Some(expanded) = self.distribute(coef, &out)
         {
@@ -279,7 +291,7 @@ impl Simplifier {
         match b {
             Node::Pow(u, a) => {
                 let safe = e_int.is_some() || a.as_num().is_some_and(|k| !is_even_integer(k));
-                if safe || self.mode == Mode::Expand {
+                if safe || self.restricted() {
                     if !safe {
                         let negative = match (a.as_num(), e.as_num()) {
                             (Some(x), Some(y)) => x * y < 0.0,
@@ -298,7 +310,7 @@ impl Simplifier {
                     return self.mul(powered);
                 }
                 let (c, rest) = split_coefficient(&Node::Mul(fs.clone()));
-                if self.mode == Mode::Expand && c > 0.0 {
+                if self.restricted() && c > 0.0 {
                     let negative = e.as_num().is_none_or(|k| k < 0.0);
                     let mut powered = vec![self.pow(Node::num(c), e.clone())];
                     for f in rest {
@@ -314,7 +326,7 @@ impl Simplifier {
                 let scaled = self.mul(vec![u, e]);
                 self.call(Func::Exp, vec![scaled])
             }
-            Node::Add(ts) if self.mode == Mode::Expand && matches!(e_int, Some(2.0..=4.0)) => {
+            Node::Add(ts) if self.expanding() && matches!(e_int, Some(2.0..=4.0)) => {
                 let n = e_int.map_or(2, |k| k as usize);
                 let copies = vec![Node::Add(ts); n];
                 match self.distribute(1.0, &copies) {
@@ -374,7 +386,7 @@ impl Simplifier {
                     None => Node::Call(Func::Exp, vec![k]),
                 }
             }
-            (Func::Exp, Node::Add(ts)) if self.mode == Mode::Expand => {
+            (Func::Exp, Node::Add(ts)) if self.expanding() => {
                 let factors = ts
                     .into_iter()
                     .map(|t| self.call(Func::Exp, vec![t]))
@@ -384,13 +396,13 @@ impl Simplifier {
             (Func::Abs, Node::Call(Func::Abs, inner)) => Node::Call(Func::Abs, inner),
             (Func::Abs, u) if sign(&u) != Sign::Unknown => u,
             (Func::Ln | Func::Log10 | Func::Log2, Node::Pow(b, k))
-                if self.mode == Mode::Expand || sign(&b) == Sign::Positive =>
+                if self.restricted() || sign(&b) == Sign::Positive =>
             {
                 self.require(&b, false, "ln(a^b) = b·ln a");
                 let log = self.call(f, vec![*b]);
                 self.mul(vec![*k, log])
             }
-            (Func::Ln | Func::Log10 | Func::Log2, Node::Mul(fs)) if self.mode == Mode::Expand => {
+            (Func::Ln | Func::Log10 | Func::Log2, Node::Mul(fs)) if self.restricted() => {
                 let (c, rest) = split_coefficient(&Node::Mul(fs.clone()));
                 if c <= 0.0 {
                     return Node::Call(f, vec![Node::Mul(fs)]);

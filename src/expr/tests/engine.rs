@@ -368,3 +368,21 @@ fn deepest_accepted_inputs_survive_every_pass() {
         }
     }
 }
+
+#[test]
+fn collapse_mode_cancels_a_root_of_a_square_before_anything_is_expanded() {
+    let mut s = Simplifier::new(Mode::Collapse);
+    let n = s.run(&to_node(&p("sqrt((a + b*x)^2)")));
+    assert_eq!(to_expr(&n).to_string(), "a + b*x");
+    let conds: Vec<String> = s
+        .conditions
+        .iter()
+        .map(|c| to_expr(&c.node).to_string())
+        .collect();
+    assert_eq!(conds, ["a + b*x >= 0"]);
+    // Expanding first would have lost it: the square becomes a sum under the root.
+    assert_eq!(
+        expand("sqrt((a + b*x)^2)").0,
+        "sqrt(a^2 + 2*a*b*x + b^2*x^2)"
+    );
+}
