@@ -1,1 +1,3 @@
 //! fitwright: calibration fits from TOML recipes.
+
+pub mod stats;
