@@ -8,8 +8,13 @@
 //! zero range) returns [`Outcome::NotApplicable`] with a [`NotApplicable`]
 //! reason, which the acceptance layer shows as "not applicable".
 
+pub mod calibration;
 pub mod distributions;
 pub mod durbin_watson;
+pub mod influence;
+pub mod information;
+pub mod lack_of_fit;
+pub mod nested;
 pub mod normality;
 pub mod roots;
 pub mod runs;
