@@ -50,6 +50,9 @@ pub struct RunsTest {
     pub p_value: f64,
     /// How `p_value` was computed.
     pub method: RunsMethod,
+    /// Continuity-corrected normal deviate `(runs + ½ − μ)/σ` behind the
+    /// p-value of the normal approximation; `None` with the exact method.
+    pub z: Option<f64>,
 }
 
 /// Runs test on `residuals` taken in ascending order of `order_key` (ties in
@@ -103,6 +106,7 @@ pub fn runs_test_in_order(residuals: &[f64]) -> Result<Outcome<RunsTest>, StatsE
         }));
     }
     let (p_value, method) = runs_p_value(n_pos, n_neg, runs)?;
+    let z = (method == RunsMethod::NormalApproximation).then(|| runs_z(n_pos, n_neg, runs));
     Ok(Outcome::Computed(RunsTest {
         n_pos,
         n_neg,
@@ -111,6 +115,7 @@ pub fn runs_test_in_order(residuals: &[f64]) -> Result<Outcome<RunsTest>, StatsE
         expected_runs: expected_runs(n_pos, n_neg),
         p_value,
         method,
+        z,
     }))
 }
 
@@ -131,6 +136,14 @@ pub fn runs_variance(n_pos: usize, n_neg: usize) -> f64 {
     }
     let prod = 2.0 * n_pos as f64 * n_neg as f64;
     prod * (prod - n) / (n * n * (n - 1.0))
+}
+
+/// Continuity-corrected normal deviate `(runs + ½ − μ)/σ` (both counts
+/// positive and not both 1, so that σ > 0).
+fn runs_z(n_pos: usize, n_neg: usize, runs: usize) -> f64 {
+    let mu = expected_runs(n_pos, n_neg);
+    let sigma = runs_variance(n_pos, n_neg).sqrt();
+    (runs as f64 + 0.5 - mu) / sigma
 }
 
 /// One-sided p-value `P(R ≤ runs)` and the method used, chosen as in
@@ -157,9 +170,7 @@ pub fn runs_p_value(
     if n_pos <= EXACT_MAX_COUNT && n_neg <= EXACT_MAX_COUNT {
         Ok((runs_exact_cdf(n_pos, n_neg, runs)?, RunsMethod::Exact))
     } else {
-        let mu = expected_runs(n_pos, n_neg);
-        let sigma = runs_variance(n_pos, n_neg).sqrt();
-        let z = (runs as f64 + 0.5 - mu) / sigma;
+        let z = runs_z(n_pos, n_neg, runs);
         Ok((normal_cdf(z)?.min(1.0), RunsMethod::NormalApproximation))
     }
 }
