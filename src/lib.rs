@@ -20,12 +20,12 @@ pub mod history;
 pub mod init;
 pub mod model;
 pub mod pipeline;
-pub mod presets;
 pub mod recipe;
 pub mod recipes;
 pub mod report;
 pub mod result;
 pub mod source;
+pub mod stats;
 pub mod verify;
 
 pub use error::{Error, ErrorKind, Result};

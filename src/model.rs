@@ -114,8 +114,8 @@ fn equation_text(recipe: &Recipe) -> Result<(Text, Option<String>, Vec<Parameter
             "[model] has neither `equation` nor `preset`",
         ));
     };
-    let preset = crate::presets::find(&preset_name.value).ok_or_else(|| {
-        let names: Vec<&str> = crate::presets::all().iter().map(|p| p.key).collect();
+    let preset = crate::analysis::presets::preset(&preset_name.value).ok_or_else(|| {
+        let names: Vec<&str> = crate::analysis::presets::presets().iter().map(|p| p.key).collect();
         let err = recipe.error_at(
             preset_name.span.clone(),
             format!("there is no preset `{}`", preset_name.value),
@@ -135,7 +135,7 @@ fn equation_text(recipe: &Recipe) -> Result<(Text, Option<String>, Vec<Parameter
         .iter()
         .map(|(name, start)| Parameter {
             name: name.to_string(),
-            start: *start,
+            start: Some(*start),
             min: None,
             max: None,
             fixed: None,
