@@ -115,7 +115,10 @@ fn equation_text(recipe: &Recipe) -> Result<(Text, Option<String>, Vec<Parameter
         ));
     };
     let preset = crate::analysis::presets::preset(&preset_name.value).ok_or_else(|| {
-        let names: Vec<&str> = crate::analysis::presets::presets().iter().map(|p| p.key).collect();
+        let names: Vec<&str> = crate::analysis::presets::presets()
+            .iter()
+            .map(|p| p.key)
+            .collect();
         let err = recipe.error_at(
             preset_name.span.clone(),
             format!("there is no preset `{}`", preset_name.value),

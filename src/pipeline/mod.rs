@@ -21,6 +21,8 @@ use crate::result::ResultDoc;
 pub fn check(path: &Path) -> Result<String> {
     let recipe = recipe::load(path)?;
     let prep = crate::model::prepare(&recipe)?;
+    let analysis = solve::analyse(&recipe, &prep)?;
+    solve::refuse_unidentifiable(&recipe, &analysis)?;
     let ds = &prep.data;
     let filtered = if prep.rows_filtered > 0 {
         format!(", {} filtered out", prep.rows_filtered)
@@ -94,7 +96,8 @@ fn report_error(e: report::ReportError) -> Error {
 pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     let recipe = recipe::load(path)?;
     let prep = crate::model::prepare(&recipe)?;
-    let solved = solve::solve(&recipe, &prep)?;
+    let analysis = solve::analyse(&recipe, &prep)?;
+    let solved = solve::solve(&recipe, &prep, &analysis)?;
     let diag = diagnostics::compute(&prep, &solved);
     let dir = report_dir(&recipe, settings);
     let (mut history, mut warnings) = history::read(&dir.join("history.jsonl"))?;
@@ -142,6 +145,7 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
         &warnings,
     );
     let mut context = outputs::report_context(&recipe, &prep, &solved, &diag, &doc, verdict, &rows);
+    context.analysis = Some(outputs::analysis_summary(&analysis));
     context.plots = plots;
     context.traceability.time_from_source_date_epoch = settings.time_from_epoch;
     Ok(Computed {

@@ -694,3 +694,63 @@ pub fn report_context(
 pub fn no_runs(reason: &str) -> RunsMeasure {
     RunsMeasure::NotApplicable(reason.into())
 }
+
+/// The analysis as the report shows it.
+pub fn analysis_summary(a: &crate::analysis::Analysis) -> report::AnalysisSummary {
+    use crate::analysis::BackMethod;
+    let lin = a.linearization();
+    report::AnalysisSummary {
+        outcome: a.outcome.label().to_string(),
+        transform: lin.map(|l| {
+            if l.identity {
+                "none".to_string()
+            } else {
+                l.transform.to_math()
+            }
+        }),
+        derivation: crate::analysis::explain_text(a)
+            .lines()
+            .map(str::to_string)
+            .collect(),
+        basis: lin.map_or_else(Vec::new, |l| {
+            l.basis
+                .iter()
+                .enumerate()
+                .map(|(j, b)| format!("h{} = {}", j + 1, b.h.to_math()))
+                .collect()
+        }),
+        coefficient_map: lin.map_or_else(Vec::new, |l| {
+            l.basis
+                .iter()
+                .zip(&l.coefficient_names)
+                .map(|(b, c)| format!("{c} = {}", b.g.to_math()))
+                .collect()
+        }),
+        back_transform: lin.map_or_else(Vec::new, |l| {
+            l.back_transform
+                .iter()
+                .map(|s| match (&s.method, &s.formula) {
+                    (BackMethod::Symbolic, Some(f)) => format!("{} = {}", s.parameter, f.to_math()),
+                    _ => format!("{} by Newton's method from its start value", s.parameter),
+                })
+                .collect()
+        }),
+        conditions: lin.map_or_else(Vec::new, |l| {
+            l.conditions
+                .iter()
+                .map(|c| report::ConditionRow {
+                    condition: c.expr.to_math(),
+                    applies_to: match c.scope {
+                        crate::analysis::Scope::Data => "every data row".into(),
+                        crate::analysis::Scope::Parameters => "the fitted parameters".into(),
+                        crate::analysis::Scope::Mixed => {
+                            "every row, with the fitted parameters".into()
+                        }
+                    },
+                    result: c.reason.clone(),
+                })
+                .collect()
+        }),
+        remarks: lin.map_or_else(Vec::new, |l| l.notes.clone()),
+    }
+}
