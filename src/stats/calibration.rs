@@ -217,10 +217,18 @@ pub fn fieller(
     } else {
         let disc = qb * qb - 4.0 * qa * qc;
         if disc <= 0.0 {
-            // No real roots. For A > 0 the discriminant is
-            // 4b²(g·d² + (1 − g)·t²s²·c0) > 0, so this is A < 0, where the
-            // quadratic is ≤ 0 everywhere.
-            FiellerSet::WholeLine
+            if qa > 0.0 {
+                // For A > 0 the discriminant is 4b²(g·d² + (1 − g)·t²s²·c0),
+                // zero only for s = 0 (an exact fit): the set is the point x₀.
+                let x0 = shift(-qb / (2.0 * qa));
+                FiellerSet::Bounded {
+                    lower: x0,
+                    upper: x0,
+                }
+            } else {
+                // A < 0 and no real roots: the quadratic is ≤ 0 everywhere.
+                FiellerSet::WholeLine
+            }
         } else {
             // Roots q/A and C/q with q = −½(B + sign(B)·√disc).
             let sq = disc.sqrt();
@@ -552,6 +560,20 @@ mod tests {
                 assert_eq!(inside, member(xv), "y0={y0} x={xv} {:?}", fe.set);
             }
         }
+    }
+
+    #[test]
+    fn an_exact_straight_line_gives_a_point_interval() {
+        let line = StraightLine::from_fit(1.0, 2.0, 0.0, &[0.0, 1.0, 2.0, 3.0]).unwrap();
+        let fe = fieller(&line, 4.0, 1, 0.95).unwrap();
+        assert_eq!(fe.x0, Some(1.5));
+        assert_eq!(
+            fe.set,
+            FiellerSet::Bounded {
+                lower: 1.5,
+                upper: 1.5
+            }
+        );
     }
 
     #[test]

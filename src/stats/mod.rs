@@ -26,7 +26,8 @@ use std::fmt;
 #[derive(Debug, Clone, PartialEq)]
 #[non_exhaustive]
 pub enum StatsError {
-    /// A degrees-of-freedom argument was not a positive finite number.
+    /// A degrees-of-freedom argument was not positive or above
+    /// [`distributions::MAX_DOF`].
     InvalidDof { name: &'static str, value: f64 },
     /// A probability argument was outside the open interval (0, 1).
     InvalidProbability { value: f64 },
@@ -49,7 +50,8 @@ impl fmt::Display for StatsError {
         match self {
             StatsError::InvalidDof { name, value } => write!(
                 f,
-                "degrees of freedom `{name}` must be a positive finite number, got {value}"
+                "degrees of freedom `{name}` must be positive and at most {:e}, got {value}",
+                distributions::MAX_DOF
             ),
             StatsError::InvalidProbability { value } => {
                 write!(
