@@ -98,7 +98,7 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     let prep = crate::model::prepare(&recipe)?;
     let analysis = solve::analyse(&recipe, &prep)?;
     let solved = solve::solve(&recipe, &prep, &analysis)?;
-    let diag = diagnostics::compute(&prep, &solved);
+    let diag = diagnostics::compute(&recipe, &prep, &solved);
     let dir = report_dir(&recipe, settings);
     let (mut history, mut warnings) = history::read(&dir.join("history.jsonl"))?;
     if let Some(before) = &settings.history_before
