@@ -99,6 +99,10 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     let analysis = solve::analyse(&recipe, &prep)?;
     let solved = solve::solve(&recipe, &prep, &analysis)?;
     let diag = diagnostics::compute(&recipe, &prep, &solved);
+    let start_diag = solved
+        .start
+        .as_ref()
+        .map(|s| diagnostics::compute(&recipe, &prep, s));
     let dir = report_dir(&recipe, settings);
     let (mut history, mut warnings) = history::read(&dir.join("history.jsonl"))?;
     if let Some(before) = &settings.history_before
@@ -117,8 +121,17 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     let (rows, verdict) = outputs::judge(&recipe, &prep, &solved, &diag, baseline);
     let data_sha: Vec<String> = prep.data.files.iter().map(|f| f.sha256.clone()).collect();
     let hash = inputs_hash(&recipe.sha256, &data_sha);
-    let run_id = report::write::run_id(settings.time, &hash)
+    let mut run_id = report::write::run_id(settings.time, &hash)
         .map_err(|e| Error::internal(format!("run id: {e}")))?;
+    // The same inputs run twice within one second: keep both runs, numbered.
+    if dir.join(&run_id).exists() {
+        let base = run_id.clone();
+        let mut k = 2;
+        while dir.join(format!("{base}-{k}")).exists() {
+            k += 1;
+        }
+        run_id = format!("{base}-{k}");
+    }
     let generated_at = report::write::utc_timestamp(settings.time)
         .map_err(|e| Error::internal(format!("time: {e}")))?;
     warnings.extend(prep.warnings.iter().cloned());
@@ -141,8 +154,9 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
         verdict,
         &run_id,
         &generated_at,
-        serde_json::Value::Null,
+        serde_json::to_value(&analysis).unwrap_or_default(),
         &warnings,
+        start_diag.as_ref(),
     );
     let mut context = outputs::report_context(&recipe, &prep, &solved, &diag, &doc, verdict, &rows);
     context.analysis = Some(outputs::analysis_summary(&analysis));
@@ -260,7 +274,32 @@ pub fn summary_text(c: &Computed) -> String {
                 .unwrap_or_default()
         ));
     }
-    s.push_str(&format!("  {}\n", figures(d)));
+    match &d.start_fit {
+        Some(st) => {
+            s.push_str(&format!(
+                "  linearized start ({}): {}\n",
+                st.transform,
+                outputs::fit_line(&st.statistics, &st.diagnostics)
+            ));
+            for p in &st.parameters {
+                if !p.fixed {
+                    s.push_str(&format!(
+                        "  {:>10}   start {}\n",
+                        p.name,
+                        report::format::full(p.value)
+                    ));
+                }
+            }
+            s.push_str(&format!(
+                "  refined fit (judged): {}\n",
+                outputs::fit_line(&d.statistics, &d.diagnostics)
+            ));
+        }
+        None => s.push_str(&format!(
+            "  {}\n",
+            outputs::fit_line(&d.statistics, &d.diagnostics)
+        )),
+    }
     for r in &c.rows {
         let mark = match r.status {
             Status::Pass => "pass",
