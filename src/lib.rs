@@ -20,6 +20,7 @@ pub mod history;
 pub mod init;
 pub mod model;
 pub mod pipeline;
+pub mod predict;
 pub mod recipe;
 pub mod recipes;
 pub mod report;

@@ -393,3 +393,60 @@ fn init_writes_a_recipe_that_passes_check() {
         .expect_code(2)
         .expect_contains(&["already exists"]);
 }
+
+#[test]
+fn predict_forward_then_inverse_round_trips_within_1e_9() {
+    let c = Case::new();
+    // A saturation curve (nonlinear in x) so the inverse is a real root search.
+    let data: String = std::iter::once("s,i".to_string())
+        .chain(
+            [0.1, 0.2, 0.4, 0.7, 1.0, 1.5, 2.0, 3.0, 5.0, 8.0]
+                .iter()
+                .enumerate()
+                .map(|(k, s)| {
+                    let wiggle = [
+                        0.05, -0.04, 0.03, -0.06, 0.02, 0.04, -0.03, 0.05, -0.02, 0.01,
+                    ][k];
+                    format!("{s},{}", 40.0 * s / (0.8 + s) + wiggle)
+                }),
+        )
+        .collect::<Vec<_>>()
+        .join("\n");
+    c.file("sat.csv", &data);
+    c.file(
+        "r.toml",
+        "name = \"sat\"\n[data]\nfiles = [\"sat.csv\"]\n[model]\nequation = \"i = Imax * s / (K + s)\"\n[model.parameters]\nImax = { start = 30 }\nK = { start = 1 }\n[report]\ndir = \"out/{name}\"\n",
+    );
+    c.run(&["run", "r.toml"]).expect_code(0);
+    let run = &run_folders(&c.path("out/sat"))[0];
+    let result = run.join("result.json");
+    let result = result.to_str().expect("path");
+    for s0 in [0.15, 1.234567, 6.5] {
+        let fwd = c.run(&["predict", result, "--at", &format!("s={s0}"), "--json"]);
+        fwd.expect_code(0);
+        let v: serde_json::Value = serde_json::from_str(&fwd.stdout).expect("json");
+        let y = v["forward"][0]["value"].as_f64().expect("value");
+        let inv = c.run(&[
+            "predict",
+            result,
+            "--inverse",
+            &format!("i={y:.17}"),
+            "--json",
+        ]);
+        inv.expect_code(0);
+        let v: serde_json::Value = serde_json::from_str(&inv.stdout).expect("json");
+        let roots = v["inverse"][0]["roots"].as_array().expect("roots");
+        assert_eq!(roots.len(), 1);
+        let back = roots[0].as_f64().expect("root");
+        assert!(
+            ((back - s0) / s0).abs() < 1e-9,
+            "s = {s0} → i = {y} → s = {back}"
+        );
+    }
+    c.run(&["predict", result, "--at", "s=20"])
+        .expect_code(2)
+        .expect_contains(&["outside the calibrated range", "--extrapolate"]);
+    c.run(&["predict", result, "--at", "s=20", "--extrapolate"])
+        .expect_code(0)
+        .expect_contains(&["extrapolated"]);
+}

@@ -185,7 +185,7 @@ fn symbols_of(prep: &Prepared) -> (Vec<String>, Vec<&[f64]>) {
 }
 
 /// Rows where the data conditions of a linearization fail (with the condition as text).
-fn violated_conditions(prep: &Prepared, lin: &Linearization) -> Vec<(String, Vec<usize>)> {
+pub fn violated_conditions(prep: &Prepared, lin: &Linearization) -> Vec<(String, Vec<usize>)> {
     let (vars, cols) = symbols_of(prep);
     let names: Vec<&str> = vars.iter().map(String::as_str).collect();
     let mut out = Vec::new();
