@@ -24,6 +24,11 @@ use crate::expr::sym::{Node, cmp_nodes, split_coefficient, to_expr, to_node};
 const TEST_VALUES: [f64; 8] = [1.37, 0.73, 1.91, 0.46, 2.63, 1.12, 0.38, 1.58];
 
 pub(super) fn linearize(m: &Prepared, t: &Expr) -> Outcome {
+    if m.params.is_empty() {
+        return Outcome::NotLinearizable {
+            reason: "the model has no free parameters to fit".to_string(),
+        };
+    }
     for (name, _) in t.identifiers() {
         if name != m.response && !m.predictors.contains(&name) {
             return Outcome::NotLinearizable {

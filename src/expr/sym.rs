@@ -255,20 +255,23 @@ pub fn to_node(e: &Expr) -> Node {
     }
 }
 
-/// Splits a product into its numeric coefficient and the remaining factors.
+/// Splits a product into its numeric coefficient and the remaining factors. When the
+/// numbers multiply to ±inf (they were kept apart for that reason) they stay factors.
 pub fn split_coefficient(n: &Node) -> (f64, Vec<Node>) {
     match n {
         Node::Num(v) => (*v, Vec::new()),
         Node::Mul(fs) => {
-            let mut c = 1.0;
-            let mut rest = Vec::new();
-            for f in fs {
-                match f {
-                    Node::Num(v) => c *= v,
-                    other => rest.push(other.clone()),
-                }
+            let c: f64 = fs.iter().filter_map(Node::as_num).product();
+            if !c.is_finite() {
+                return (1.0, fs.clone());
             }
-            (c, rest)
+            (
+                c,
+                fs.iter()
+                    .filter(|f| f.as_num().is_none())
+                    .cloned()
+                    .collect(),
+            )
         }
         other => (1.0, vec![other.clone()]),
     }
