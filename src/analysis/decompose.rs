@@ -142,7 +142,7 @@ pub(super) fn linearize(m: &Prepared, t: &Expr) -> Outcome {
 
     let p = m.params.len();
     let k = basis.len();
-    let test_point = test_point(m);
+    let test_point = test_point(&m.starts);
     let jacobian: Vec<Vec<Node>> = basis
         .iter()
         .map(|(_, g)| m.params.iter().map(|q| derivative_node(g, q)).collect())
@@ -343,8 +343,8 @@ pub(super) fn and_list(items: &[&str]) -> String {
 }
 
 /// Start values where given, test values elsewhere.
-pub(super) fn test_point(m: &Prepared) -> Vec<f64> {
-    m.starts
+pub(super) fn test_point(starts: &[Option<f64>]) -> Vec<f64> {
+    starts
         .iter()
         .enumerate()
         .map(|(i, s)| s.unwrap_or(TEST_VALUES[i % TEST_VALUES.len()]))
@@ -456,7 +456,7 @@ fn singular(m: &Prepared, basis: &[(Node, Node)], g: &DMatrix<f64>, after: &str)
         "{} cannot be separated{after}: the coefficient map ({}) has a singular Jacobian at {}",
         and_list(&names),
         combos.join(", "),
-        point_text(&m.params, &test_point(m)),
+        point_text(&m.params, &test_point(&m.starts)),
     );
     Outcome::NotIdentifiable {
         parameters: involved,
