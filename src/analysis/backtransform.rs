@@ -263,14 +263,7 @@ impl Linearization {
         if unknown.len() != equations.len() {
             return Err("internal error: Newton needs as many equations as unknowns".to_string());
         }
-        let prepared_starts = Prepared {
-            response: self.response.clone(),
-            rhs: crate::expr::Expr::number(0.0),
-            predictors: Vec::new(),
-            params: self.parameters.clone(),
-            starts: self.starts.clone(),
-        };
-        let fallback = test_point(&prepared_starts);
+        let fallback = test_point(&self.starts);
         let mut x: Vec<f64> = theta
             .iter()
             .enumerate()

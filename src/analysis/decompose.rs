@@ -24,6 +24,11 @@ use crate::expr::sym::{Node, cmp_nodes, split_coefficient, to_expr, to_node};
 const TEST_VALUES: [f64; 8] = [1.37, 0.73, 1.91, 0.46, 2.63, 1.12, 0.38, 1.58];
 
 pub(super) fn linearize(m: &Prepared, t: &Expr) -> Outcome {
+    if m.params.is_empty() {
+        return Outcome::NotLinearizable {
+            reason: "the model has no free parameters to fit".to_string(),
+        };
+    }
     for (name, _) in t.identifiers() {
         if name != m.response && !m.predictors.contains(&name) {
             return Outcome::NotLinearizable {
@@ -137,7 +142,7 @@ pub(super) fn linearize(m: &Prepared, t: &Expr) -> Outcome {
 
     let p = m.params.len();
     let k = basis.len();
-    let test_point = test_point(m);
+    let test_point = test_point(&m.starts);
     let jacobian: Vec<Vec<Node>> = basis
         .iter()
         .map(|(_, g)| m.params.iter().map(|q| derivative_node(g, q)).collect())
@@ -338,8 +343,8 @@ pub(super) fn and_list(items: &[&str]) -> String {
 }
 
 /// Start values where given, test values elsewhere.
-pub(super) fn test_point(m: &Prepared) -> Vec<f64> {
-    m.starts
+pub(super) fn test_point(starts: &[Option<f64>]) -> Vec<f64> {
+    starts
         .iter()
         .enumerate()
         .map(|(i, s)| s.unwrap_or(TEST_VALUES[i % TEST_VALUES.len()]))
@@ -451,7 +456,7 @@ fn singular(m: &Prepared, basis: &[(Node, Node)], g: &DMatrix<f64>, after: &str)
         "{} cannot be separated{after}: the coefficient map ({}) has a singular Jacobian at {}",
         and_list(&names),
         combos.join(", "),
-        point_text(&m.params, &test_point(m)),
+        point_text(&m.params, &test_point(&m.starts)),
     );
     Outcome::NotIdentifiable {
         parameters: involved,

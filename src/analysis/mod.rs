@@ -19,7 +19,7 @@ mod tests;
 
 use serde::Serialize;
 
-use crate::expr::{Expr, parse_expression};
+use crate::expr::Expr;
 
 pub use conditions::{Condition, Scope, offending_rows};
 pub use explain::explain_text;
@@ -291,34 +291,24 @@ pub fn analyze(model: &ModelSpec, choice: &TransformChoice) -> Analysis {
     }
 }
 
-/// The search order of SPEC §4.
+/// The search order of SPEC §4: none, ln(y), 1/y, sqrt(y), y², 1/sqrt(y), and x/y for a
+/// single predictor (built directly, so any response or predictor name works).
 fn auto_transforms(response: &str, predictors: &[String]) -> Vec<Expr> {
-    let mut texts = vec![
-        "y".to_string(),
-        "ln(y)".to_string(),
-        "1/y".to_string(),
-        "sqrt(y)".to_string(),
-        "y^2".to_string(),
-        "1/sqrt(y)".to_string(),
+    use crate::expr::{Func, MulOp};
+    let y = || Expr::name(response);
+    let one = || Expr::number(1.0);
+    let mut out = vec![
+        y(),
+        Expr::call(Func::Ln, vec![y()]),
+        Expr::binary_product(one(), MulOp::Div, y()),
+        Expr::call(Func::Sqrt, vec![y()]),
+        Expr::pow(y(), Expr::number(2.0)),
+        Expr::binary_product(one(), MulOp::Div, Expr::call(Func::Sqrt, vec![y()])),
     ];
-    if predictors.len() == 1 {
-        texts.push("x/y".to_string());
+    if let [x] = predictors {
+        out.push(Expr::binary_product(Expr::name(x), MulOp::Div, y()));
     }
-    let y = Expr::name(response);
-    let x = predictors.first().map(|p| Expr::name(p));
-    texts
-        .iter()
-        .map(|t| {
-            // The templates are fixed and parse; the names are substituted afterwards so
-            // that any response or predictor name works.
-            let template = parse_expression(t).expect("built-in transform templates parse");
-            let with_y = template.substitute("y", &y);
-            match &x {
-                Some(x) => with_y.substitute("x", x),
-                None => with_y,
-            }
-        })
-        .collect()
+    out
 }
 
 fn not_linearizable_summary(candidates: &[Candidate]) -> Outcome {

@@ -433,6 +433,20 @@ fn linearizations_are_identities_and_back_transforms_recover_theta() {
 }
 
 #[test]
+fn auto_transforms_use_the_model_names_whatever_they_are() {
+    // A response called `x` and a predictor called `y` must not be confused with the
+    // x and y of the search-order description.
+    let m = spec("x = a*exp(b*y)", &["y"], &[("a", None), ("b", None)], &[]);
+    let a = analyze(&m, &TransformChoice::Auto);
+    let tried: Vec<&str> = a.candidates.iter().map(|c| c.transform.as_str()).collect();
+    assert_eq!(
+        tried,
+        ["x", "ln(x)", "1/x", "sqrt(x)", "x^2", "1/sqrt(x)", "y/x"]
+    );
+    assert_eq!(a.linearization().unwrap().transform.to_string(), "ln(x)");
+}
+
+#[test]
 fn auto_lists_every_transform_that_works_and_picks_the_first() {
     let m = spec(
         "v = Vmax*S/(Km + S)",

@@ -133,12 +133,12 @@ impl Simplifier {
                 other => flat.push(other),
             }
         }
-        let mut constant = 0.0;
+        let mut constants = Vec::new();
         let mut keyed: Vec<(Node, f64)> = Vec::with_capacity(flat.len());
         for t in flat {
             let (c, mut factors) = into_coefficient(t);
             match factors.len() {
-                0 => constant += c,
+                0 => constants.push(c),
                 1 => keyed.push((factors.remove(0), c)),
                 _ => keyed.push((Node::Mul(factors), c)),
             }
@@ -158,8 +158,14 @@ impl Simplifier {
             }
             i = j;
         }
-        if constant != 0.0 && constant.is_finite() {
-            out.push(Node::num(constant));
+        let constant: f64 = constants.iter().sum();
+        if constant.is_finite() {
+            if constant != 0.0 {
+                out.push(Node::num(constant));
+            }
+        } else {
+            // Folding overflowed: keep the constants apart rather than produce inf.
+            out.extend(constants.into_iter().map(Node::num));
         }
         match out.len() {
             0 => Node::num(0.0),
@@ -177,15 +183,16 @@ impl Simplifier {
                 other => flat.push(other),
             }
         }
-        let mut coef = 1.0;
+        let mut numbers = Vec::new();
         let mut pairs: Vec<(Node, Node)> = Vec::with_capacity(flat.len());
         for f in flat {
             match f {
-                Node::Num(v) => coef *= v,
+                Node::Num(v) => numbers.push(v),
                 Node::Pow(b, e) => pairs.push((*b, *e)),
                 other => pairs.push((other, Node::num(1.0))),
             }
         }
+        let mut coef: f64 = numbers.iter().product();
         if coef == 0.0 {
             return Node::num(0.0);
         }
@@ -204,7 +211,10 @@ impl Simplifier {
         let mut refold = false;
         for (b, e) in merged {
             match self.pow(b, e) {
-                Node::Num(v) => coef *= v,
+                Node::Num(v) => {
+                    numbers.push(v);
+                    coef *= v;
+                }
                 f @ Node::Mul(_) => {
                     refold = true;
                     out.push(f);
@@ -213,13 +223,18 @@ impl Simplifier {
             }
         }
         if refold {
-            out.push(Node::num(coef));
+            if coef.is_finite() {
+                out.push(Node::num(coef));
+            } else {
+                out.extend(numbers.into_iter().map(Node::num));
+            }
             return self.mul(out);
         }
         if coef == 0.0 {
             return Node::num(0.0);
         }
         if self.expanding()
+            && coef.is_finite()
             && out.iter().any(|f| matches!(f, Node::Add(_)))
             && let Some(expanded) = self.distribute(coef, &out)
         {
@@ -227,8 +242,10 @@ impl Simplifier {
         }
         out.sort_by(cmp_factors);
         if !coef.is_finite() {
-            // Overflowed folding: keep the numbers apart rather than produce inf.
-            return Node::Mul(out);
+            // Folding overflowed: keep the numbers apart rather than produce inf.
+            let mut all: Vec<Node> = numbers.into_iter().map(Node::num).collect();
+            all.extend(out);
+            return Node::Mul(all);
         }
         if out.is_empty() {
             return Node::num(coef);
@@ -440,15 +457,11 @@ fn into_coefficient(n: Node) -> (f64, Vec<Node>) {
     match n {
         Node::Num(v) => (v, Vec::new()),
         Node::Mul(fs) => {
-            let mut c = 1.0;
-            let mut rest = Vec::with_capacity(fs.len());
-            for f in fs {
-                match f {
-                    Node::Num(v) => c *= v,
-                    other => rest.push(other),
-                }
+            let c: f64 = fs.iter().filter_map(Node::as_num).product();
+            if !c.is_finite() {
+                return (1.0, fs);
             }
-            (c, rest)
+            (c, fs.into_iter().filter(|f| f.as_num().is_none()).collect())
         }
         other => (1.0, vec![other]),
     }
