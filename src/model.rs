@@ -287,9 +287,7 @@ pub fn prepare(recipe: &Recipe) -> Result<Prepared> {
             want(&name, true, &mut wanted);
         }
     }
-    if let Some(g) = &recipe.fit.groups {
-        want(&g.value, true, &mut wanted);
-    }
+    // `[fit] groups` and `[data] by` are read by the data layer as labels (text allowed).
     let mut ds = data::load(recipe, &wanted)?;
     let columns_list = || ds_columns_hint(recipe, &ds_variables(&wanted));
     // Every model variable must have been found.
