@@ -188,7 +188,7 @@ where
                 .help("check `range`, `skip_rows` and `header_after` in [data]"),
         );
     }
-    // Formulas of empty data cells, so that a formula nobody calculated is named as such.
+    // Formulas of blank data cells, so that a formula nobody calculated is named as such.
     let mut formulas = BTreeMap::new();
     let empty: Vec<(u32, u32)> = rows
         .iter()
@@ -196,7 +196,7 @@ where
             row.cells
                 .iter()
                 .enumerate()
-                .filter(|(_, c)| **c == Cell::Empty)
+                .filter(|(_, c)| c.is_blank())
                 .map(move |(i, _)| (row.number as u32 - 1, region.first_col + i as u32))
         })
         .collect();

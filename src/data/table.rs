@@ -661,6 +661,10 @@ fn find_column(
                             format!(
                                 "the header is {list}: set `delimiter` in [data] to the file's separator"
                             )
+                        } else if is_workbook(recipe, path) {
+                            format!(
+                                "the header has {list}; in a workbook, the header is the first row of `range` (or the row after `header_after`)"
+                            )
                         } else {
                             format!("the header has {list}")
                         }
@@ -670,6 +674,14 @@ fn find_column(
             }
         },
     }
+}
+
+fn is_workbook(recipe: &Recipe, path: &Path) -> bool {
+    recipe
+        .data
+        .format
+        .unwrap_or_else(|| Format::from_extension(path))
+        .is_spreadsheet()
 }
 
 #[cfg(test)]
