@@ -812,3 +812,92 @@ fn a_missing_groups_column_is_named_at_the_key() {
         ],
     );
 }
+
+// ---------------------------------------------------------------- demo data
+
+#[test]
+fn demo_logger_export_gives_sixteen_channels_with_ch07_invalid() {
+    let xlsx = repo_root().join("demo-data/logger/tl16-bath-2026-11-27.xlsx");
+    let c = Case::new();
+    c.file(
+        "r.toml",
+        &recipe(
+            &format!(
+                "files = [{:?}]\nsheet = \"Export\"\nby = \"channel\"",
+                xlsx.display().to_string()
+            ),
+            "{ T = \"bath_c\", R = \"reading_ohm\" }",
+        ),
+    );
+    let out = c.run(&["check", "r.toml"]);
+    out.expect_code(2).expect_contains(&[
+        "16 channels from 1 file, 1 invalid",
+        "channel CH07: invalid",
+        "text `OVL` in column `reading_ohm`",
+        "in channel `CH07` of `by`",
+    ]);
+    // Seven set points, three replicates: 21 rows for every other channel.
+    assert_eq!(out.stdout.matches(": ok, 21 rows from 1 file").count(), 15);
+}
+
+#[test]
+fn demo_windows_1252_recipe_reads_its_units_row() {
+    let path = repo_root().join("recipes/probe-th-b3.toml");
+    let r = fitwright::recipe::load(&path).expect("valid demo recipe");
+    let ds = data::load(&r, &data::mapped_columns(&r)).expect("demo data load");
+    assert_eq!(ds.len(), 21);
+    assert_eq!(ds.unit(&r.data.units, "T"), "°C");
+    assert_eq!(ds.unit(&r.data.units, "R"), "kOhm");
+    // The first data line follows a 7-line preamble, the header and the units row.
+    assert_eq!(ds.origins[0].line, 10);
+}
+
+// ---------------------------------------------------------------- recipe keys
+
+#[test]
+fn new_data_keys_are_type_checked_and_misspellings_suggested() {
+    let c = case(
+        &recipe("files = [\"utf16le.csv\"]\nheader_afer = \"Data:\"", TR),
+        &["utf16le.csv"],
+    );
+    check_fails(
+        &c,
+        &[
+            "r.toml:4:1",
+            "unknown key `header_afer` in [data]",
+            "did you mean `header_after`?",
+        ],
+    );
+    let c = case(
+        &recipe("files = [\"utf16le.csv\"]\nunits_row = \"yes\"", TR),
+        &["utf16le.csv"],
+    );
+    check_fails(
+        &c,
+        &["r.toml:4:13", "must be true or false, found a string"],
+    );
+    let c = case(
+        &recipe("files = [\"utf16le.csv\"]\nby = true", TR),
+        &["utf16le.csv"],
+    );
+    check_fails(
+        &c,
+        &[
+            "r.toml:4:6",
+            "column of `by` must be a header name or a 1-based position",
+        ],
+    );
+    let c = case(
+        &recipe("files = [\"utf16le.csv\"]\nthousands = \"_\"", TR),
+        &["utf16le.csv"],
+    );
+    check_fails(
+        &c,
+        &["r.toml:4:13", "`thousands` in [data] cannot be \"_\""],
+    );
+    let c = case(
+        &recipe("files = [\"utf16le.csv\"]\nformat = \"xls\"", TR),
+        &["utf16le.csv"],
+    );
+    check_fails(&c, &["r.toml:4:10", "did you mean `xlsx`?"]);
+}
