@@ -178,9 +178,23 @@ fn check(paths: &[PathBuf]) -> Result<i32> {
     let stdout = std::io::stdout();
     for path in &recipes {
         match crate::pipeline::check(path) {
-            Ok(summary) => {
-                let mut out = stdout.lock();
-                let _ = writeln!(out, "ok       {}  {summary}", path.display());
+            Ok(checked) => {
+                let bad = checked.invalid_channels().count() > 0;
+                {
+                    let mut out = stdout.lock();
+                    let status = if bad { "invalid " } else { "ok      " };
+                    let _ = writeln!(out, "{status} {}  {}", path.display(), checked.summary);
+                    for (channel, result) in &checked.channels {
+                        let _ = match result {
+                            Ok(s) => writeln!(out, "           channel {channel}: ok, {s}"),
+                            Err(_) => writeln!(out, "           channel {channel}: invalid"),
+                        };
+                    }
+                }
+                for (_, e) in checked.invalid_channels() {
+                    eprint!("{e}");
+                    worst = worst.max(e.exit_code());
+                }
             }
             Err(e) => {
                 {

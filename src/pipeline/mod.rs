@@ -17,25 +17,80 @@ use crate::recipe::{self, Recipe, ReportFormat};
 use crate::report;
 use crate::result::ResultDoc;
 
-/// Validate a recipe and its data; a one-line summary on success.
-pub fn check(path: &Path) -> Result<String> {
+/// What `check` found for a valid recipe.
+#[derive(Debug)]
+pub struct Checked {
+    /// One line: name, rows and files (channels for a `by` recipe).
+    pub summary: String,
+    /// For a recipe with `[data] by`: each channel in natural order, with its own summary or
+    /// error. Empty otherwise.
+    pub channels: Vec<(String, Result<String>)>,
+}
+
+impl Checked {
+    /// The channels that are invalid.
+    pub fn invalid_channels(&self) -> impl Iterator<Item = (&str, &Error)> {
+        self.channels
+            .iter()
+            .filter_map(|(c, r)| r.as_ref().err().map(|e| (c.as_str(), e)))
+    }
+}
+
+/// Validate one prepared model: the analysis must not find it unidentifiable.
+fn check_prepared(recipe: &Recipe, prep: &crate::model::Prepared) -> Result<String> {
+    let analysis = solve::analyse(recipe, prep)?;
+    solve::refuse_unidentifiable(recipe, &analysis)?;
+    Ok(rows_summary(prep))
+}
+
+/// Validate a recipe and its data; a one-line summary on success (and one per channel for a
+/// recipe with `by`, where a channel with bad data is invalid on its own).
+pub fn check(path: &Path) -> Result<Checked> {
     let recipe = recipe::load(path)?;
+    if recipe.data.by.is_some() {
+        let set = crate::model::prepare_channels(&recipe)?;
+        let files = set.files.len();
+        let channels = set.channels;
+        let invalid = channels.iter().filter(|(_, p)| p.is_err()).count();
+        let summary = format!(
+            "{}: {} channel{} from {files} file{}{}",
+            recipe.name.value,
+            channels.len(),
+            if channels.len() == 1 { "" } else { "s" },
+            if files == 1 { "" } else { "s" },
+            if invalid > 0 {
+                format!(", {invalid} invalid")
+            } else {
+                String::new()
+            }
+        );
+        let channels = channels
+            .into_iter()
+            .map(|(c, p)| (c, p.and_then(|p| check_prepared(&recipe, &p))))
+            .collect();
+        return Ok(Checked { summary, channels });
+    }
     let prep = crate::model::prepare(&recipe)?;
-    let analysis = solve::analyse(&recipe, &prep)?;
-    solve::refuse_unidentifiable(&recipe, &analysis)?;
+    Ok(Checked {
+        summary: format!("{}: {}", recipe.name.value, check_prepared(&recipe, &prep)?),
+        channels: Vec::new(),
+    })
+}
+
+/// "19 rows from 2 files, 3 filtered out".
+fn rows_summary(prep: &crate::model::Prepared) -> String {
     let ds = &prep.data;
     let filtered = if prep.rows_filtered > 0 {
         format!(", {} filtered out", prep.rows_filtered)
     } else {
         String::new()
     };
-    Ok(format!(
-        "{}: {} rows from {} file{}{filtered}",
-        recipe.name.value,
+    format!(
+        "{} rows from {} file{}{filtered}",
         ds.len(),
         ds.files.len(),
         if ds.files.len() == 1 { "" } else { "s" }
-    ))
+    )
 }
 
 /// Settings of a run that do not come from the recipe.
