@@ -188,7 +188,7 @@ pub fn summary_table(outcomes: &[RunOutcome]) -> String {
     }
     let count = |v: Verdict| outcomes.iter().filter(|o| o.verdict == v).count();
     s.push_str(&format!(
-        "{} recipe run{}: {} criteria met (awaiting review), {} not met, {} not judged, {} invalid\n",
+        "{} result{}: {} criteria met (awaiting review), {} not met, {} not judged, {} invalid\n",
         outcomes.len(),
         if outcomes.len() == 1 { "" } else { "s" },
         count(Verdict::Accepted),

@@ -267,7 +267,22 @@ pub fn compute(recipe: &Recipe, prep: &Prepared, solved: &Solved) -> Diagnostics
         Err(e) => d.max_cooks = Measure::NotApplicable(e.to_string()),
     }
     // Lack of fit: replicate groups of equal predictor values.
-    let labels = replicate_groups(&x, n);
+    // Replicate groups: the `[fit] groups` column when given, else equal predictor values.
+    let labels = match &prep.data.groups {
+        Some(g) => {
+            let mut names: Vec<&String> = Vec::new();
+            g.iter()
+                .map(|l| match names.iter().position(|m| *m == l) {
+                    Some(i) => i,
+                    None => {
+                        names.push(l);
+                        names.len() - 1
+                    }
+                })
+                .collect()
+        }
+        None => replicate_groups(&x, n),
+    };
     match stats::lack_of_fit::lack_of_fit(
         prep.y(),
         &est.fitted,

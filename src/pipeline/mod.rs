@@ -150,7 +150,67 @@ fn report_error(e: report::ReportError) -> Error {
 /// Load, fit, judge and render one recipe — everything except writing.
 pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     let recipe = recipe::load(path)?;
+    if recipe.data.by.is_some() {
+        return Err(Error::usage(
+            "this recipe has channels (`[data] by`): compute each with `compute_channels`",
+        )
+        .in_file(path)
+        .help("run it with `fitwright run`"));
+    }
     let prep = crate::model::prepare(&recipe)?;
+    let dir = report_dir(&recipe, settings);
+    compute_prepared(recipe, prep, dir, None, settings)
+}
+
+/// A file-name-safe form of a channel value.
+pub fn channel_slug(value: &str) -> String {
+    let s: String = value
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || matches!(c, '.' | '_' | '-') {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
+    if s.is_empty() { "_".into() } else { s }
+}
+
+/// Average replicate groups when `[fit] average_replicates = true`: the fit then sees one row
+/// per group, each weighted by the summed weights of its members (see
+/// `data::average_replicates`).
+fn averaged(recipe: &Recipe, mut prep: crate::model::Prepared) -> Result<crate::model::Prepared> {
+    if !recipe.fit.average_replicates {
+        return Ok(prep);
+    }
+    let predictors: Vec<&str> = prep.model.predictors.iter().map(String::as_str).collect();
+    let labels = crate::data::replicate_labels(&prep.data, &predictors);
+    let avg = crate::data::average_replicates(&prep.data, &labels, prep.weights.as_deref())?;
+    prep.warnings.push(format!("{} rows averaged into {} replicate group means (`average_replicates = true`), weighted by group size", prep.data.len(), avg.data.len()));
+    prep.data = avg.data;
+    prep.weights = Some(avg.weights);
+    Ok(prep)
+}
+
+/// Fit, judge and render one prepared model (a whole recipe, or one channel of it).
+pub fn compute_prepared(
+    recipe: Recipe,
+    prep: crate::model::Prepared,
+    dir: PathBuf,
+    channel: Option<String>,
+    settings: &RunSettings,
+) -> Result<Computed> {
+    let prep = averaged(&recipe, prep)?;
+    // Units from the file's units row fill in what the recipe leaves out (recipe units win).
+    let mut recipe = recipe;
+    for (var, unit) in &prep.data.file_units {
+        recipe
+            .data
+            .units
+            .entry(var.clone())
+            .or_insert_with(|| unit.clone());
+    }
     let analysis = solve::analyse(&recipe, &prep)?;
     let solved = solve::solve(&recipe, &prep, &analysis)?;
     let diag = diagnostics::compute(&recipe, &prep, &solved);
@@ -158,7 +218,6 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
         .start
         .as_ref()
         .map(|s| diagnostics::compute(&recipe, &prep, s));
-    let dir = report_dir(&recipe, settings);
     let (mut history, mut warnings) = history::read(&dir.join("history.jsonl"))?;
     if let Some(before) = &settings.history_before
         && let Some(i) = history.iter().position(|h| h.run_id == *before)
@@ -213,8 +272,13 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
         &warnings,
         start_diag.as_ref(),
     );
+    let mut doc = doc;
+    doc.channel = channel.clone();
     let mut context = outputs::report_context(&recipe, &prep, &solved, &diag, &doc, verdict, &rows);
     context.analysis = Some(outputs::analysis_summary(&analysis));
+    if let Some(c) = &channel {
+        context.title = format!("{} — channel {c}", context.title);
+    }
     context.plots = plots;
     context.traceability.time_from_source_date_epoch = settings.time_from_epoch;
     Ok(Computed {
@@ -381,20 +445,74 @@ pub fn summary_text(c: &Computed) -> String {
 /// Run one recipe end to end; an error becomes an invalid (or failed-output) outcome.
 pub fn run_recipe(path: &Path, settings: &RunSettings) -> Vec<RunOutcome> {
     let start = Instant::now();
-    let result = compute(path, settings).and_then(|mut c| {
+    let recipe = match recipe::load(path) {
+        Ok(r) => r,
+        Err(e) => {
+            return vec![RunOutcome::failed(
+                path,
+                "",
+                &e,
+                start.elapsed().as_secs_f64(),
+            )];
+        }
+    };
+    let name = recipe.name.value.clone();
+    if recipe.data.by.is_none() {
+        let result = crate::model::prepare(&recipe).and_then(|prep| {
+            let dir = report_dir(&recipe, settings);
+            compute_prepared(recipe, prep, dir, None, settings)
+        });
+        return vec![finish_run(path, &name, None, result, settings, start)];
+    }
+    // One fit per channel; a channel with bad data is invalid without stopping the others.
+    let set = match crate::model::prepare_channels(&recipe) {
+        Ok(s) => s,
+        Err(e) => {
+            return vec![RunOutcome::failed(
+                path,
+                &name,
+                &e,
+                start.elapsed().as_secs_f64(),
+            )];
+        }
+    };
+    let base = report_dir(&recipe, settings);
+    set.channels
+        .into_iter()
+        .map(|(channel, prep)| {
+            let t = Instant::now();
+            let dir = base.join(channel_slug(&channel));
+            let result = prep.and_then(|p| {
+                compute_prepared(recipe.clone(), p, dir, Some(channel.clone()), settings)
+            });
+            finish_run(path, &name, Some(channel), result, settings, t)
+        })
+        .collect()
+}
+
+/// Write a computed run and describe its outcome (or the error that stopped it).
+fn finish_run(
+    path: &Path,
+    name: &str,
+    channel: Option<String>,
+    result: Result<Computed>,
+    settings: &RunSettings,
+    start: Instant,
+) -> RunOutcome {
+    let result = result.and_then(|mut c| {
         let folder = write(&mut c, settings)?;
         Ok((c, folder))
     });
     let seconds = start.elapsed().as_secs_f64();
     match result {
         Ok((c, folder)) => {
-            if settings.verbose {
+            if settings.verbose && channel.is_none() {
                 print!("{}", summary_text(&c));
             }
-            vec![RunOutcome {
+            RunOutcome {
                 recipe: path.to_path_buf(),
                 name: c.doc.recipe.name.clone(),
-                channel: None,
+                channel,
                 verdict: c.verdict,
                 wording: c.verdict.wording().into(),
                 figures: figures(&c.doc),
@@ -419,11 +537,12 @@ pub fn run_recipe(path: &Path, settings: &RunSettings) -> Vec<RunOutcome> {
                 error: None,
                 exit_code: c.verdict.exit_code(),
                 seconds,
-            }]
+            }
         }
         Err(e) => {
-            let name = recipe::load(path).map(|r| r.name.value).unwrap_or_default();
-            vec![RunOutcome::failed(path, &name, &e, seconds)]
+            let mut o = RunOutcome::failed(path, name, &e, seconds);
+            o.channel = channel;
+            o
         }
     }
 }
