@@ -197,3 +197,15 @@ fn a_recipe_that_is_not_there_is_a_usage_error() {
         .expect_code(2)
         .expect_contains(&["`nowhere.toml` does not exist"]);
 }
+
+#[test]
+fn names_that_would_leave_the_report_folder_are_refused() {
+    for name in ["..", ".", ".hidden"] {
+        let text = Recipe::line().name(name).text();
+        let c = raw_case(text.as_bytes());
+        c.run(&["run", "r.toml", "--out", "runs"])
+            .expect_code(2)
+            .expect_contains(&["r.toml:1:8", &format!("the name `{name}` is not allowed")]);
+        assert_nothing_written(&c);
+    }
+}
