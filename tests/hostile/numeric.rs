@@ -143,3 +143,12 @@ fn extreme_constant_weights_give_the_unweighted_fit() {
         assert!((param(&doc, "b") - b0).abs() < 1e-12, "weights {w}");
     }
 }
+
+#[test]
+fn constant_response_makes_r_squared_not_applicable_not_nan() {
+    let c = Recipe::line().case("x,y\n1,5\n2,5\n3,5\n4,5\n5,5\n");
+    let out = c.run(&["run", "r.toml"]);
+    out.expect_code(1)
+        .expect_contains(&["n/a", "R² is not defined: the response does not vary"]);
+    assert!(!out.stdout.contains("NaN"), "{}", out.stdout);
+}
