@@ -85,3 +85,25 @@ fn full_disk_behind_the_junit_file_is_an_output_error() {
         .expect_code(3)
         .expect_contains(&["junit"]);
 }
+
+#[test]
+fn full_standard_output_is_an_output_error_not_a_panic() {
+    let c = Recipe::line().case(LINE);
+    let full = std::fs::OpenOptions::new()
+        .write(true)
+        .open("/dev/full")
+        .expect("/dev/full");
+    let out = Command::new(env!("CARGO_BIN_EXE_fitwright"))
+        .args(["run", "r.toml"])
+        .current_dir(c.dir.path())
+        .stdout(std::process::Stdio::from(full))
+        .output()
+        .expect("run");
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(!stderr.contains("panicked"), "{stderr}");
+    assert_eq!(out.status.code(), Some(3), "{stderr}");
+    assert!(
+        stderr.contains("cannot write to standard output"),
+        "{stderr}"
+    );
+}
