@@ -107,3 +107,44 @@ fn full_standard_output_is_an_output_error_not_a_panic() {
         "{stderr}"
     );
 }
+
+#[test]
+fn history_that_is_a_folder_is_an_output_error() {
+    let c = Recipe::line().case(LINE);
+    std::fs::create_dir_all(c.path("out/history.jsonl")).expect("mkdir");
+    c.run(&["run", "r.toml"])
+        .expect_code(3)
+        .expect_contains(&["history", "is a folder"]);
+    assert!(run_folders(&c.path("out")).is_empty());
+}
+
+#[test]
+fn out_pointing_at_a_file_is_an_output_error() {
+    let c = Recipe::line().case(LINE);
+    c.file("taken", "a file, not a folder\n");
+    c.run(&["run", "r.toml", "--out", "taken"])
+        .expect_code(3)
+        .expect_contains(&[
+            "`taken` is a file, not a folder",
+            "output or internal failure",
+        ]);
+    assert_nothing_written(&c);
+    assert_eq!(
+        std::fs::read_to_string(c.path("taken")).expect("still there"),
+        "a file, not a folder\n"
+    );
+}
+
+#[test]
+fn report_dir_inside_a_file_is_an_output_error() {
+    let r = Recipe::line().report("formats = [\"json\"]");
+    let text = r.text().replace("dir = \"out\"", "dir = \"taken/{name}\"");
+    let c = Case::new();
+    c.file("r.toml", &text)
+        .file("d.csv", LINE)
+        .file("taken", "x\n");
+    c.run(&["run", "r.toml"])
+        .expect_code(3)
+        .expect_contains(&["`taken` is a file, not a folder"]);
+    assert_nothing_written(&c);
+}
