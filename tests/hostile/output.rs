@@ -66,7 +66,7 @@ fn full_disk_leaves_no_half_report_and_no_history_line() {
     let c = Recipe::line().case(LINE);
     run_with_no_file_space(&c, &["run", "r.toml"])
         .expect_code(3)
-        .expect_contains(&["File too large", "output or internal failure"]);
+        .expect_contains(&["File too large", "0 invalid, 1 output or internal failure"]);
     assert_nothing_written(&c);
     // A later run with space writes a complete run and one history line.
     c.run(&["run", "r.toml"]).expect_code(0);
@@ -126,7 +126,7 @@ fn out_pointing_at_a_file_is_an_output_error() {
         .expect_code(3)
         .expect_contains(&[
             "`taken` is a file, not a folder",
-            "output or internal failure",
+            "0 invalid, 1 output or internal failure",
         ]);
     assert_nothing_written(&c);
     assert_eq!(
