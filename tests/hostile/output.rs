@@ -148,3 +148,29 @@ fn report_dir_inside_a_file_is_an_output_error() {
         .expect_contains(&["`taken` is a file, not a folder"]);
     assert_nothing_written(&c);
 }
+
+#[test]
+fn stale_temporary_run_folders_are_ignored_and_cleaned() {
+    let c = Recipe::line().case(LINE);
+    let stale = c.path("out/.20200101T000000Z-deadbeef.tmp");
+    let fresh = c.path("out/.20200101T000001Z-cafef00d.tmp");
+    for d in [&stale, &fresh] {
+        std::fs::create_dir_all(d.join("plots")).expect("mkdir");
+        std::fs::write(d.join("report.html"), "<html>half").expect("write");
+    }
+    // A crash two hours ago left `stale`; `fresh` may belong to a run still writing.
+    let two_hours_ago = std::time::SystemTime::now() - std::time::Duration::from_secs(7200);
+    std::fs::File::open(&stale)
+        .and_then(|f| f.set_modified(two_hours_ago))
+        .expect("age the stale folder");
+    c.run(&["run", "r.toml"]).expect_code(0);
+    assert!(
+        !stale.exists(),
+        "a temporary folder older than an hour is removed"
+    );
+    assert!(
+        fresh.exists(),
+        "a recent one is left to the run that may own it"
+    );
+    assert_eq!(run_folders(&c.path("out")).len(), 1);
+}
