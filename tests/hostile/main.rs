@@ -11,6 +11,7 @@ mod util;
 
 mod data;
 mod equation;
+mod kill;
 mod numeric;
 mod output;
 mod recipe_file;
