@@ -65,12 +65,8 @@ pub fn assess(
     let w = prep.weights.as_deref();
     let p = names.len();
     let statistics =
-        covariance::fit_statistics(y, w, &est.fitted, p, est.has_constant, mode(recipe)).map_err(
-            |e| {
-                Error::input(format!("the fit statistics cannot be computed: {e}"))
-                    .help("check the data for constant or degenerate columns")
-            },
-        )?;
+        covariance::fit_statistics(y, w, &est.fitted, p, est.has_constant, mode(recipe))
+            .map_err(|e| estimate::statistics_error(prep, e))?;
     let settings = UncertaintySettings {
         mode: mode(recipe),
         confidence: recipe.fit.confidence,
@@ -79,7 +75,9 @@ pub fn assess(
         Error::input(format!("the parameter uncertainty cannot be computed: {e}"))
             .help("parameters that cannot be told apart on these data need more or different data, or one of them fixed")
     })?;
-    let mut warnings = Vec::new();
+    let mut warnings: Vec<String> = estimate::conditioning_warning(prep, uncertainty.condition)
+        .into_iter()
+        .collect();
     for (i, b) in est.at_bound.iter().enumerate() {
         if *b {
             warnings.push(format!(
