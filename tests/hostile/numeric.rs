@@ -238,6 +238,15 @@ fn subnormal_predictors_that_cannot_be_scaled_are_named() {
 }
 
 #[test]
+fn subnormal_responses_are_fitted_with_a_warning() {
+    let c = Recipe::line().case("x,y\n1,4e-320\n2,5e-320\n3,7e-320\n4,8e-320\n5,9.5e-320\n");
+    let out = c.run(&["run", "r.toml"]);
+    out.expect_code(1).expect_contains(&[
+        "warning: column `y` holds values below 2.2e-308 in magnitude (subnormal)",
+    ]);
+}
+
+#[test]
 fn values_near_the_top_of_the_float_range_give_a_clear_message() {
     let c = Recipe::line().case("x,y\n1,1e308\n2,1.5e308\n3,1.7e308\n4,1.1e308\n");
     refused(
