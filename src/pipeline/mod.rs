@@ -230,6 +230,8 @@ pub fn compute_prepared(
             .or_insert_with(|| unit.clone());
     }
     let analysis = solve::analyse(&recipe, &prep)?;
+    let mut prep = prep;
+    solve::drop_invalid_rows(&recipe, &mut prep, &analysis)?;
     let solved = solve::solve(&recipe, &prep, &analysis)?;
     let diag = diagnostics::compute(&recipe, &prep, &solved);
     let start_diag = solved
