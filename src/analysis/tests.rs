@@ -706,3 +706,42 @@ fn explain_shows_every_transform_and_the_chosen_linearization() {
     ), "{text}");
     assert!(text.contains("needs start values for b"), "{text}");
 }
+
+/// The deepest equations the parser accepts, with parameters deep inside, through the whole
+/// analysis (every auto transform, expansion, derivatives, conditions, back-transform) and
+/// its explanation, on a 2 MiB thread (the default of test threads and of the batch's
+/// workers) in a debug build: none may exhaust the stack.
+#[test]
+fn deepest_accepted_equations_survive_the_analysis_on_a_small_stack() {
+    let equations = [
+        format!("y = a + b*{}x{}", "sin(".repeat(199), ")".repeat(199)),
+        format!("y = a*exp(b*{}x{})", "(1 + x*".repeat(98), ")".repeat(98)),
+        format!("y = a*{}x{}", "(1 + b*x^".repeat(99), ")".repeat(99)),
+        format!("y = {}a*x + b{}", "ln(1 + ".repeat(99), ")".repeat(99)),
+        format!("y = a + b*{}x", "-".repeat(198)),
+        format!("y = {}a/(b + x){}", "1/(1 + ".repeat(98), ")".repeat(98)),
+    ];
+    let handle = std::thread::Builder::new()
+        .stack_size(2 << 20)
+        .spawn(move || {
+            for eq in &equations {
+                let parsed = parse_equation(eq).expect("within the limits");
+                let model = ModelSpec::new(
+                    "y",
+                    parsed.rhs.clone(),
+                    &["x"],
+                    &[("a", Some(1.5)), ("b", Some(0.5))],
+                );
+                // `auto` tries every transform of SPEC §4, ln(y), 1/y and y² among them.
+                let a = analyze(&model, &TransformChoice::Auto);
+                assert_eq!(a.candidates.len(), 7);
+                assert!(!explain_text(&a).is_empty());
+                assert!(serde_json::to_string(&a).is_ok());
+            }
+        })
+        .expect("thread");
+    assert!(
+        handle.join().is_ok(),
+        "the analysis failed on a 2 MiB stack"
+    );
+}
