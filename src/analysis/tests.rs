@@ -745,3 +745,29 @@ fn deepest_accepted_equations_survive_the_analysis_on_a_small_stack() {
         "the analysis failed on a 2 MiB stack"
     );
 }
+
+/// Found by the analyze_equation fuzz target: under y² this sum expands to hundreds of
+/// basis terms, whose independence test took seconds while each term got a fresh SVD. The
+/// outcome must not change with the method: no transform separates the parameters.
+#[test]
+fn sum_expanding_to_hundreds_of_basis_terms_is_analysed() {
+    let src = include_str!("../../fuzz/seeds/analyze_equation/slow-y2");
+    let eq = parse_equation(src.trim()).expect("parses");
+    let mut names: Vec<String> = Vec::new();
+    for (n, _) in eq.rhs.identifiers() {
+        if !names.contains(&n) {
+            names.push(n);
+        }
+    }
+    let (params, predictors) = names.split_at(3);
+    let predictors: Vec<&str> = predictors.iter().map(String::as_str).collect();
+    let params: Vec<(&str, Option<f64>)> = params.iter().map(|p| (p.as_str(), Some(1.5))).collect();
+    let model = ModelSpec::new(&eq.response, eq.rhs.clone(), &predictors, &params);
+    let a = analyze(&model, &TransformChoice::Auto);
+    assert_eq!(a.outcome.label(), "not linearizable", "{:?}", a.outcome);
+    assert!(
+        a.candidates
+            .iter()
+            .all(|c| c.outcome.linearization().is_none())
+    );
+}
