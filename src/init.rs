@@ -77,7 +77,7 @@ fn relative_to(path: &Path, base: &Path) -> PathBuf {
     for _ in common..bc.len() {
         out.push("..");
     }
-    for c in &pc[common..] {
+    for c in pc.iter().skip(common) {
         out.push(c);
     }
     out

@@ -260,7 +260,7 @@ impl Curve {
             ))
             .help(format!(
                 "give all but one with --at, e.g. `--at {}=…`",
-                many[1]
+                many.get(1).map_or("x", |s| s.as_str())
             ))),
         }
     }

@@ -264,10 +264,14 @@ pub fn quantile(
                 return Err(CovarianceError::NoDegreesOfFreedom { n: 0, p: 0 });
             }
             let t = StudentsT::new(0.0, 1.0, dof as f64)
-                .expect("invariant: dof ≥ 1 is a valid Student's t parameter");
+                .map_err(|_| CovarianceError::NoDegreesOfFreedom { n: dof, p: 0 })?;
             Ok(t.inverse_cdf(prob))
         }
         UncertaintyMode::Weights => {
+            #[allow(
+                clippy::expect_used,
+                reason = "invariant: N(0, 1) has valid parameters"
+            )]
             let z = Normal::new(0.0, 1.0).expect("invariant: N(0, 1) is valid");
             Ok(z.inverse_cdf(prob))
         }
@@ -330,8 +334,8 @@ pub fn fit_statistics(
     let chi_square = match mode {
         UncertaintyMode::Residuals => None,
         UncertaintyMode::Weights => {
-            let dist =
-                ChiSquared::new(dof as f64).expect("invariant: dof ≥ 1 is a valid χ² parameter");
+            let dist = ChiSquared::new(dof as f64)
+                .map_err(|_| CovarianceError::NoDegreesOfFreedom { n, p })?;
             Some(ChiSquareTest {
                 statistic: ssr,
                 dof,

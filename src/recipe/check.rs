@@ -207,12 +207,17 @@ fn check_data(mut s: Section<'_>, dir: &Path) -> Result<DataSpec> {
             } else {
                 d.value.as_str()
             };
-            if value.len() != 1 || !value.is_ascii() {
+            let &[byte] = value.as_bytes() else {
+                return Err(s
+                    .error(d.span, "`delimiter` must be a single ASCII character")
+                    .help("for example \";\" or \"\\t\""));
+            };
+            if !byte.is_ascii() {
                 return Err(s
                     .error(d.span, "`delimiter` must be a single ASCII character")
                     .help("for example \";\" or \"\\t\""));
             }
-            Some(value.as_bytes()[0])
+            Some(byte)
         }
     };
     let decimal_comma = match s.string("decimal")? {

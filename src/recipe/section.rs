@@ -264,7 +264,7 @@ pub fn text_of(source: &SourceFile, value: &str, span: Range<usize>) -> Text {
         .iter()
         .find(|q| raw.starts_with(*q) && raw.len() >= 2 * q.len())
         .and_then(|q| {
-            let inner = &raw[q.len()..raw.len() - q.len()];
+            let inner = raw.get(q.len()..raw.len() - q.len())?;
             (inner == value).then_some(span.start + q.len())
         });
     Text {

@@ -468,7 +468,9 @@ fn emptiest_corner(points: &[(f64, f64)], x: (f64, f64), y: (f64, f64)) -> Serie
             counts[3] += 1;
         }
     }
-    let best = (0..4).min_by_key(|i| counts[*i]).unwrap_or(0);
+    let best = (0..4)
+        .min_by_key(|i| counts.get(*i).copied().unwrap_or(usize::MAX))
+        .unwrap_or(0);
     match best {
         0 => SeriesLabelPosition::UpperLeft,
         1 => SeriesLabelPosition::UpperRight,

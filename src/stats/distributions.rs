@@ -82,6 +82,10 @@ fn chi_squared(dof: f64) -> Result<ChiSquared, StatsError> {
 }
 
 fn standard_normal() -> Normal {
+    #[allow(
+        clippy::expect_used,
+        reason = "invariant: N(0, 1) has valid parameters"
+    )]
     Normal::new(0.0, 1.0).expect("invariant: N(0, 1) has valid parameters")
 }
 
