@@ -324,8 +324,12 @@ impl Curve {
         })?;
         let mut notes = Vec::new();
         if ip.roots.is_empty() {
+            let num = crate::expr::print::format_number_short;
             return Err(Error::input(format!(
-                "the curve does not reach {response} = {reading} inside the calibrated range of {var} [{lo}, {hi}]"
+                "the curve does not reach {response} = {} inside the calibrated range of {var} [{}, {}]",
+                num(reading),
+                num(lo),
+                num(hi)
             ))
             .help(if extrapolate { "the reading lies outside what the curve gives even beyond the range" } else { "the reading lies outside the calibrated range; `--extrapolate` searches beyond it, at your own risk" }));
         }

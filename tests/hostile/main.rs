@@ -15,6 +15,7 @@ mod kill;
 mod numeric;
 mod output;
 mod recipe_file;
+mod stored;
 mod templates;
 mod transform_weights;
 
