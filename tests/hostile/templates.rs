@@ -51,3 +51,43 @@ fn template_that_is_not_utf8_is_refused() {
     let (c, _) = template_case(&[("report.html.j2", b"<p>\xff\xfe {{ title }}</p>\n")]);
     refused(&c, &["tpl", "report.html.j2"]);
 }
+
+#[test]
+fn template_nested_ten_thousand_deep_is_refused_not_overflowed() {
+    let deep = format!(
+        "{}x{}",
+        "{% if true %}".repeat(10_000),
+        "{% endif %}".repeat(10_000)
+    );
+    let (c, _) = template_case(&[("report.md.j2", deep.as_bytes())]);
+    refused(&c, &["tpl/report.md.j2:1", "recursion"]);
+}
+
+/// Notes are Markdown rendered into both reports: 50,000 nested block quotes, 2,000 nested
+/// list levels and 50,000 nested brackets are rendered, not overflowed.
+#[test]
+fn deeply_nested_markdown_notes_are_rendered() {
+    let notes = format!(
+        "{} deep\n\n{}\n{}x{}\n",
+        ">".repeat(50_000),
+        (0..2_000)
+            .map(|i| format!("{}- item", "  ".repeat(i)))
+            .collect::<Vec<_>>()
+            .join("\n"),
+        "[".repeat(50_000),
+        "]".repeat(50_000)
+    );
+    let r = Recipe::line();
+    let text = r.text().replacen(
+        "\n[data]",
+        &format!("\nnotes = {}\n[data]", serde_json::Value::from(notes)),
+        1,
+    );
+    let c = Case::new();
+    c.file("r.toml", &text).file("d.csv", LINE);
+    c.run(&["run", "r.toml"]).expect_code(0);
+    let runs = run_folders(&c.path("out"));
+    assert_eq!(runs.len(), 1);
+    let html = std::fs::read_to_string(runs[0].join("report.html")).expect("html");
+    assert!(html.contains("deep") && html.trim_end().ends_with("</html>"));
+}
