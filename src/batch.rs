@@ -123,8 +123,14 @@ where
     } else {
         None
     };
+    // No more workers than recipes: the others would only wait, and idle workers spin for
+    // a while before they sleep (`--jobs 5000` on one recipe kept two cores busy for minutes).
+    let wanted = options
+        .jobs
+        .filter(|&j| j > 0)
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
     let pool = rayon::ThreadPoolBuilder::new()
-        .num_threads(options.jobs.unwrap_or(0))
+        .num_threads(wanted.min(selected.len()).max(1))
         .stack_size(WORKER_STACK_BYTES)
         .build()
         .map_err(|e| Error::internal(format!("cannot start worker threads: {e}")))?;

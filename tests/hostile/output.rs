@@ -174,3 +174,24 @@ fn stale_temporary_run_folders_are_ignored_and_cleaned() {
     );
     assert_eq!(run_folders(&c.path("out")).len(), 1);
 }
+
+#[test]
+fn far_more_jobs_than_recipes_run_each_recipe_once() {
+    let c = Case::new();
+    c.file("d.csv", LINE);
+    for name in ["p1", "p2", "p3"] {
+        c.file(
+            &format!("recipes/{name}.toml"),
+            &Recipe::line()
+                .name(name)
+                .text()
+                .replace("d.csv", "../d.csv"),
+        );
+    }
+    c.run(&["run", "recipes", "--jobs", "5000", "--out", "runs"])
+        .expect_code(0)
+        .expect_contains(&["3 results: 3 criteria met"]);
+    for name in ["p1", "p2", "p3"] {
+        assert_eq!(run_folders(&c.path(&format!("runs/{name}"))).len(), 1);
+    }
+}
