@@ -342,8 +342,17 @@ pub fn parse_source_date_epoch(value: &str) -> Result<i64> {
             "SOURCE_DATE_EPOCH must be a whole number of seconds since 1970-01-01 UTC, got {value:?}"
         )));
     }
-    text.parse::<i64>()
-        .map_err(|_| ReportError::invalid(format!("SOURCE_DATE_EPOCH {value:?} is too large")))
+    let t = text
+        .parse::<i64>()
+        .map_err(|_| ReportError::invalid(format!("SOURCE_DATE_EPOCH {value:?} is too large")))?;
+    // Run ids and timestamps are written for the years 0–9999 only; refuse a later time here,
+    // where the user can be told, instead of failing when the first run id is made.
+    utc_parts(t).map_err(|_| {
+        ReportError::invalid(format!(
+            "SOURCE_DATE_EPOCH {value:?} is after the year 9999"
+        ))
+    })?;
+    Ok(t)
 }
 
 #[cfg(test)]
@@ -430,6 +439,12 @@ mod tests {
         assert!(parse_source_date_epoch("12.5").is_err());
         assert!(parse_source_date_epoch("").is_err());
         assert!(parse_source_date_epoch("99999999999999999999999").is_err());
+        // 253402300799 is 9999-12-31T23:59:59Z (`date -u -d @253402300799`).
+        assert_eq!(
+            parse_source_date_epoch("253402300799").ok(),
+            Some(253_402_300_799)
+        );
+        assert!(parse_source_date_epoch("253402300800").is_err());
     }
 
     #[test]

@@ -195,3 +195,19 @@ fn far_more_jobs_than_recipes_run_each_recipe_once() {
         assert_eq!(run_folders(&c.path(&format!("runs/{name}"))).len(), 1);
     }
 }
+
+#[test]
+fn source_date_epoch_past_the_year_9999_is_a_usage_error() {
+    let c = Recipe::line().case(LINE);
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_fitwright"))
+        .args(["run", "r.toml"])
+        .current_dir(c.dir.path())
+        .env("SOURCE_DATE_EPOCH", "99999999999999")
+        .output()
+        .expect("run");
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains("is after the year 9999"), "{stderr}");
+    assert!(!stderr.contains("internal error"), "{stderr}");
+    assert_nothing_written(&c);
+}
