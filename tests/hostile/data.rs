@@ -240,3 +240,27 @@ fn a_hundred_thousand_columns_are_read() {
         .expect_code(0)
         .expect_contains(&["8 rows from 1 file"]);
 }
+
+/// A glob over 5,000 one-row exports, plus a pattern naming one of them again: every file is
+/// read once (the repeated one is not counted twice). Matches used to be de-duplicated by a
+/// linear search, quadratic in the files.
+#[test]
+fn five_thousand_files_from_one_glob_are_each_read_once() {
+    let r = Recipe::line();
+    let text = r
+        .text()
+        .replace("[\"d.csv\"]", "[\"logs/*.csv\", \"logs/r17.csv\"]");
+    let c = Case::new();
+    c.file("r.toml", &text);
+    std::fs::create_dir_all(c.path("logs")).expect("mkdir");
+    for i in 0..5_000 {
+        std::fs::write(
+            c.path(&format!("logs/r{i}.csv")),
+            format!("x,y\n{i},{}\n", 0.5 + 2.0 * i as f64),
+        )
+        .expect("write");
+    }
+    c.run(&["check", "r.toml"])
+        .expect_code(0)
+        .expect_contains(&["5000 rows from 5000 files"]);
+}
