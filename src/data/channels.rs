@@ -2,6 +2,8 @@
 //! distinct value of the `by` column. A channel with a bad cell is invalid on its own; the
 //! others are unaffected.
 
+use std::collections::HashMap;
+
 use super::{Dataset, natural_cmp};
 use crate::error::Error;
 
@@ -33,14 +35,22 @@ pub fn split_by(ds: &Dataset) -> Vec<Channel> {
         .collect();
     values.sort_by(|a, b| natural_cmp(a, b).then_with(|| a.cmp(b)));
     values.dedup();
+    // The rows and the rejected rows of each channel, gathered in one pass each: a scan of
+    // every row per channel took seconds for a `by` column of 20,000 distinct values.
+    let mut rows_of: HashMap<&str, Vec<usize>> = HashMap::new();
+    for (i, l) in labels.iter().enumerate() {
+        rows_of.entry(l.as_str()).or_default().push(i);
+    }
+    let mut rejected_of: HashMap<&str, Vec<&super::RejectedRow>> = HashMap::new();
+    for r in &ds.rejected {
+        if let Some(c) = r.channel.as_deref() {
+            rejected_of.entry(c).or_default().push(r);
+        }
+    }
     values
         .into_iter()
         .map(|value| {
-            let mut bad: Vec<_> = ds
-                .rejected
-                .iter()
-                .filter(|r| r.channel.as_deref() == Some(value))
-                .collect();
+            let mut bad: Vec<_> = rejected_of.remove(value).unwrap_or_default();
             bad.sort_by_key(|r| (r.file, r.line));
             let data = match bad.first() {
                 Some(first) => {
@@ -56,12 +66,7 @@ pub fn split_by(ds: &Dataset) -> Vec<Channel> {
                     Err(err)
                 }
                 None => {
-                    let rows: Vec<usize> = labels
-                        .iter()
-                        .enumerate()
-                        .filter(|(_, l)| l.as_str() == value)
-                        .map(|(i, _)| i)
-                        .collect();
+                    let rows = rows_of.remove(value).unwrap_or_default();
                     let mut sub = ds.select(&rows);
                     sub.skipped
                         .retain(|s| s.channel.as_deref().is_none_or(|c| c == value));

@@ -264,3 +264,23 @@ fn five_thousand_files_from_one_glob_are_each_read_once() {
         .expect_code(0)
         .expect_contains(&["5000 rows from 5000 files"]);
 }
+
+/// `by` naming a column whose every value differs (a time stamp chosen by mistake): every
+/// channel has one row, too few to fit, and each is reported invalid on its own. Splitting
+/// used to scan every row once per channel, quadratic in the rows.
+#[test]
+fn by_column_of_all_distinct_values_makes_every_channel_invalid() {
+    let r = Recipe::line().data("by = \"stamp\"");
+    let mut text = String::from("x,y,stamp\n");
+    for i in 0..3_000 {
+        text.push_str(&format!("{},{},t{i}\n", i % 7, 0.5 + 2.0 * (i % 7) as f64));
+    }
+    let c = r.case(&text);
+    c.run(&["check", "r.toml"])
+        .expect_code(2)
+        .expect_contains(&[
+            "3000 channels from 1 file, 3000 invalid",
+            "in channel `t2999` of `by`",
+            "the fit needs at least 3 rows",
+        ]);
+}
