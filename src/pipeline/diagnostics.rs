@@ -267,14 +267,13 @@ pub fn compute(recipe: &Recipe, prep: &Prepared, solved: &Solved) -> Diagnostics
     // Replicate groups: the `[fit] groups` column when given, else equal predictor values.
     let labels = match &prep.data.groups {
         Some(g) => {
-            let mut names: Vec<&String> = Vec::new();
+            // Numbered in order of first appearance, by hash (linear in the rows).
+            let mut names: std::collections::HashMap<&str, usize> =
+                std::collections::HashMap::new();
             g.iter()
-                .map(|l| match names.iter().position(|m| *m == l) {
-                    Some(i) => i,
-                    None => {
-                        names.push(l);
-                        names.len() - 1
-                    }
+                .map(|l| {
+                    let next = names.len();
+                    *names.entry(l.as_str()).or_insert(next)
                 })
                 .collect()
         }

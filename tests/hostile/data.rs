@@ -284,3 +284,22 @@ fn by_column_of_all_distinct_values_makes_every_channel_invalid() {
             "the fit needs at least 3 rows",
         ]);
 }
+
+/// `[fit] groups` naming a column of 20,000 distinct labels: no replicates, so lack of fit
+/// does not apply, and the run goes through (labels used to be numbered by a linear search).
+#[test]
+fn groups_column_of_all_distinct_labels_runs() {
+    let r = Recipe::line().fit("groups = \"batch\"");
+    let mut text = String::from("x,y,batch\n");
+    for i in 0..20_000 {
+        let x = i as f64 * 1e-3;
+        text.push_str(&format!(
+            "{x},{},b{i}\n",
+            0.5 + 2.0 * x + 1e-3 * (i % 3) as f64
+        ));
+    }
+    let c = r.case(&text);
+    c.run(&["run", "r.toml"])
+        .expect_code(0)
+        .expect_contains(&["n 20000"]);
+}
