@@ -14,22 +14,49 @@ fn read_only_report_folder_is_an_output_error() {
     let dir = c.path("out");
     std::fs::create_dir_all(&dir).expect("mkdir");
     std::fs::set_permissions(&dir, std::fs::Permissions::from_mode(0o555)).expect("chmod");
-    // Root (and CAP_DAC_OVERRIDE) write through permission bits: the folder is not read-only
-    // for such a process, and the cases below (a location no one may write, a file size
-    // limit) cover the failure instead.
     let probe = dir.join("probe");
-    if std::fs::write(&probe, b"").is_ok() {
+    let out = if std::fs::write(&probe, b"").is_err() {
+        // An ordinary user: the permission bits make the folder read-only.
+        let out = c.run(&["run", "r.toml"]);
+        let _ = std::fs::set_permissions(&dir, std::fs::Permissions::from_mode(0o755));
+        out.expect_code(3).expect_contains(&["Permission denied"]);
+        out
+    } else {
+        // Root (or CAP_DAC_OVERRIDE) writes through permission bits: make the folder a
+        // read-only bind mount instead, in a private mount namespace that ends with the run.
         let _ = std::fs::remove_file(&probe);
         let _ = std::fs::set_permissions(&dir, std::fs::Permissions::from_mode(0o755));
-        println!(
-            "skipped: this process writes through permission bits (root?), so a read-only \
-             folder cannot be made with chmod; see unwritable_location_is_an_output_error"
-        );
-        return;
-    }
-    let out = c.run(&["run", "r.toml"]);
-    let _ = std::fs::set_permissions(&dir, std::fs::Permissions::from_mode(0o755));
-    out.expect_code(3).expect_contains(&["Permission denied"]);
+        let script = "mount --bind -o ro \"$1\" \"$1\" && cd \"$2\" && exec \"$3\" run r.toml";
+        let attempt = Command::new("unshare")
+            .args(["-m", "--propagation", "private", "sh", "-c", script, "sh"])
+            .arg(&dir)
+            .arg(c.dir.path())
+            .arg(env!("CARGO_BIN_EXE_fitwright"))
+            .output();
+        let Ok(o) = attempt else {
+            println!(
+                "skipped: running as root without `unshare`, so no read-only folder can be made"
+            );
+            return;
+        };
+        let stderr = String::from_utf8_lossy(&o.stderr).into_owned();
+        if stderr.contains("unshare:") || stderr.contains("mount:") {
+            println!(
+                "skipped: running as root and a read-only bind mount is not permitted here ({})",
+                stderr.trim()
+            );
+            return;
+        }
+        let out = Outcome {
+            code: o.status.code().unwrap_or(-1),
+            stdout: String::from_utf8_lossy(&o.stdout).into_owned(),
+            stderr,
+        };
+        out.expect_code(3)
+            .expect_contains(&["Read-only file system"]);
+        out
+    };
+    out.expect_contains(&["0 invalid, 1 output or internal failure"]);
     assert_nothing_written(&c);
 }
 
