@@ -1,6 +1,7 @@
 //! The stages of one recipe, in order: load and check the recipe, prepare the model and its
 //! data, fit, diagnose, judge, and write the run folder and the history line.
 
+pub mod compare;
 pub mod diagnostics;
 pub mod outputs;
 pub mod plots;
@@ -274,8 +275,19 @@ pub fn compute_prepared(
     );
     let mut doc = doc;
     doc.channel = channel.clone();
+    let comparisons = compare::compare(&recipe, &prep, &solved)?;
+    doc.compare = comparisons
+        .iter()
+        .filter_map(|c| serde_json::to_value(c).ok())
+        .collect();
+    doc.calibration = outputs::calibration_figures(&recipe, &prep, &solved)
+        .map(|c| serde_json::to_value(&c).unwrap_or_default());
     let mut context = outputs::report_context(&recipe, &prep, &solved, &diag, &doc, verdict, &rows);
     context.analysis = Some(outputs::analysis_summary(&analysis));
+    context.compare = compare::rows(&comparisons);
+    if let Some(c) = outputs::calibration_figures(&recipe, &prep, &solved) {
+        context.calibration_figures = c.rows();
+    }
     if let Some(c) = &channel {
         context.title = format!("{} — channel {c}", context.title);
     }
@@ -434,6 +446,38 @@ pub fn summary_text(c: &Computed) -> String {
                 .as_deref()
                 .map(|n| format!(" ({n})"))
                 .unwrap_or_default()
+        ));
+    }
+    for c in &d.compare {
+        let eq = c.get("equation").and_then(|v| v.as_str()).unwrap_or("?");
+        let da = c
+            .get("delta_aicc")
+            .and_then(|v| v.as_f64())
+            .map_or("—".into(), |v| report::format::sig(v, 3));
+        let p = c.get("p_value").and_then(|v| v.as_f64()).map_or(
+            "no F-test (not nested)".into(),
+            |p| {
+                let t = report::format::p_value(p);
+                if t.starts_with('<') {
+                    format!("nested F-test p {t}")
+                } else {
+                    format!("nested F-test p = {t}")
+                }
+            },
+        );
+        s.push_str(&format!("  compared with {eq}: ΔAICc {da}, {p}\n"));
+    }
+    if let Some(cal) = &d.calibration {
+        let get = |k: &str| {
+            cal.get(k)
+                .and_then(|v| v.as_f64())
+                .map_or("—".into(), report::format::num)
+        };
+        let unit = cal.get("unit").and_then(|v| v.as_str()).unwrap_or("");
+        s.push_str(&format!(
+            "  LOD {} {unit} · LOQ {} {unit} (ICH Q2: 3.3·σ/slope, 10·σ/slope)\n",
+            get("lod"),
+            get("loq")
         ));
     }
     for w in &d.warnings {

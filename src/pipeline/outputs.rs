@@ -828,3 +828,98 @@ fn difference_table(
         rows,
     }
 }
+
+/// Detection and quantification limits of a straight-line calibration (ICH Q2(R1)):
+/// LOD = 3.3·σ/b, LOQ = 10·σ/b, σ the unweighted residual SD of the line (or the standard
+/// error of the intercept with `[limits] sigma = "intercept"`), b the slope; in predictor units.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct CalibrationFigures {
+    pub lod: f64,
+    pub loq: f64,
+    pub sigma: f64,
+    pub sigma_kind: String,
+    pub slope: f64,
+    pub unit: String,
+}
+
+impl CalibrationFigures {
+    pub fn rows(&self) -> Vec<report::StatRow> {
+        let note = Some(format!(
+            "ICH Q2(R1): 3.3·σ/slope and 10·σ/slope with σ = {} ({}); they assume a linear, homoscedastic response near the limit",
+            fmt::num(self.sigma),
+            self.sigma_kind
+        ));
+        let u = if self.unit.is_empty() {
+            String::new()
+        } else {
+            format!(" {}", self.unit)
+        };
+        let mut a = report::StatRow::new(
+            "lod",
+            "limit of detection (LOD)",
+            format!("{}{u}", fmt::num(self.lod)),
+        );
+        a.note = note.clone();
+        let mut b = report::StatRow::new(
+            "loq",
+            "limit of quantification (LOQ)",
+            format!("{}{u}", fmt::num(self.loq)),
+        );
+        b.note = note;
+        vec![a, b]
+    }
+}
+
+/// LOD and LOQ when the model is a straight line `b0 + b1·x` in its one predictor.
+pub fn calibration_figures(
+    recipe: &Recipe,
+    prep: &Prepared,
+    solved: &Solved,
+) -> Option<CalibrationFigures> {
+    if prep.model.predictors.len() != 1
+        || solved.names.len() != 2
+        || solved.estimate.method_used != "linear"
+    {
+        return None;
+    }
+    let x = &prep.model.predictors[0];
+    let rhs = prep.model.rhs_with_fixed();
+    let slope_expr = expr::simplify(&expr::derivative(&rhs, x));
+    if slope_expr.mentions(x) {
+        return None;
+    }
+    let l = |n: &str| {
+        solved
+            .names
+            .iter()
+            .position(|p| p == n)
+            .and_then(|i| solved.estimate.params.get(i).copied())
+    };
+    let slope = expr::eval_recursive(&slope_expr, &l).ok()?;
+    let (sigma, kind) = match recipe.limits.sigma {
+        crate::recipe::LimitsSigma::Residual => (
+            rms_residual(solved),
+            "unweighted residual SD of the line".to_string(),
+        ),
+        crate::recipe::LimitsSigma::Intercept => {
+            // The intercept is the parameter whose basis function is the constant.
+            let i = solved
+                .names
+                .iter()
+                .position(|n| expr::simplify(&expr::derivative(&rhs, n)).to_string() == "1")?;
+            (
+                solved.uncertainty.std_errors.get(i).copied().flatten()?,
+                "standard error of the intercept".to_string(),
+            )
+        }
+    };
+    let d = crate::stats::calibration::detection_limits(sigma, slope).ok()?;
+    Some(CalibrationFigures {
+        lod: d.lod,
+        loq: d.loq,
+        sigma,
+        sigma_kind: kind,
+        slope,
+        unit: recipe.data.unit(x).to_string(),
+    })
+}
