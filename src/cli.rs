@@ -89,6 +89,11 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Write an HTML index of every result under a folder (DIR/index.html).
+    Index {
+        /// A folder of reports, e.g. reports/
+        dir: PathBuf,
+    },
     /// Re-hash a stored result's inputs, re-run it, and say whether it reproduces.
     Verify {
         /// A result.json written by `fitwright run`.
@@ -141,6 +146,10 @@ pub fn main() -> i32 {
             quiet,
         }),
         Command::Verify { result } => verify(&result),
+        Command::Index { dir } => crate::index::write(&dir).map(|(path, n)| {
+            println!("wrote {} ({n} runs)", path.display());
+            0
+        }),
         Command::Predict {
             result,
             at,
@@ -295,7 +304,14 @@ fn run(args: RunArgs) -> Result<i32> {
         quiet: args.quiet || args.json,
         shard,
     };
-    let outcomes = crate::batch::run_all(&recipes, &options, |p| {
+    // Recipes sharing a report folder share a history: they run in order, one at a time.
+    let group = |p: &std::path::Path| match crate::recipe::load(p) {
+        Ok(r) => crate::pipeline::report_dir(&r, &settings)
+            .display()
+            .to_string(),
+        Err(_) => p.display().to_string(),
+    };
+    let outcomes = crate::batch::run_all(&recipes, &options, group, |p| {
         crate::pipeline::run_recipe(p, &settings)
     })?;
     for o in &outcomes {

@@ -17,6 +17,7 @@ pub mod fit;
 pub mod fsutil;
 pub mod hash;
 pub mod history;
+pub mod index;
 pub mod init;
 pub mod model;
 pub mod pipeline;
