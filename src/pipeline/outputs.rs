@@ -712,7 +712,8 @@ pub fn analysis_summary(a: &crate::analysis::Analysis) -> report::AnalysisSummar
         }),
         derivation: crate::analysis::explain_text(a)
             .lines()
-            .map(str::to_string)
+            .filter(|l| !l.trim().is_empty())
+            .map(|l| l.trim_end().to_string())
             .collect(),
         basis: lin.map_or_else(Vec::new, |l| {
             l.basis
