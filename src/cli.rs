@@ -37,7 +37,7 @@ enum Command {
         #[arg(long, value_delimiter = ',')]
         format: Option<Vec<String>>,
         /// Recipes run at once (default: one per core).
-        #[arg(long, value_name = "N")]
+        #[arg(long, short = 'j', value_name = "N")]
         jobs: Option<usize>,
         /// Print the summary as JSON on stdout.
         #[arg(long)]
@@ -52,7 +52,7 @@ enum Command {
         #[arg(long, value_name = "K/N")]
         shard: Option<String>,
         /// No progress bar and no per-recipe details.
-        #[arg(long)]
+        #[arg(long, short = 'q')]
         quiet: bool,
     },
     /// Show the linearizability analysis of a recipe's model and the fit plan.
