@@ -17,6 +17,7 @@ pub mod fsutil;
 pub mod hash;
 pub mod history;
 pub mod init;
+pub mod metrology;
 pub mod model;
 pub mod pipeline;
 pub mod presets;
