@@ -12,9 +12,11 @@
 //!   curve between calibrations;
 //! - [`assay`]: back-calculated standards (ICH M10);
 //! - [`record`] and [`date`]: item, procedure, standards, conditions, report ids;
+//! - [`warnings`]: what `predict` warns about a stored result.
 
 pub mod as_found;
 pub mod assay;
+pub mod criteria;
 pub mod curve;
 pub mod date;
 pub mod decision;
@@ -22,6 +24,7 @@ pub mod gum;
 pub mod read_off;
 pub mod record;
 pub mod tolerance;
+pub mod warnings;
 
 pub use curve::{Curve, CurveSpec, ModelCurve};
 pub use date::Date;

@@ -110,9 +110,9 @@ fn outside(curve: &dyn Curve, x: f64) -> String {
     format!(
         "{} = {} lies outside the calibrated range [{}, {}]",
         curve.predictor(),
-        format::num(x),
-        format::num(lo),
-        format::num(hi)
+        crate::acceptance::fmt_num(x),
+        crate::acceptance::fmt_num(lo),
+        crate::acceptance::fmt_num(hi)
     )
 }
 
@@ -176,7 +176,7 @@ pub fn inverse_at(
         return Err(format!(
             "the curve is flat at {} = {}: a reading there does not determine {}",
             curve.predictor(),
-            format::num(x),
+            crate::acceptance::fmt_num(x),
             curve.predictor()
         ));
     }
@@ -234,13 +234,13 @@ pub fn inverse(
             Some(x) if !extrapolate => format!(
                 "{} = {} is reached only outside the calibrated range ({}); a read-off there is an extrapolation (allow it explicitly)",
                 curve.response(),
-                format::num(y),
+                crate::acceptance::fmt_num(y),
                 outside(curve, *x)
             ),
             _ => format!(
                 "the curve does not reach {} = {} within the calibrated range of {}",
                 curve.response(),
-                format::num(y),
+                crate::acceptance::fmt_num(y),
                 curve.predictor()
             ),
         });

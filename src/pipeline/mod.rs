@@ -2,6 +2,7 @@
 //! data, fit, diagnose, judge, and write the run folder and the history line.
 
 pub mod diagnostics;
+pub mod metrology;
 pub mod outputs;
 pub mod plots;
 pub mod solve;
@@ -21,6 +22,7 @@ use crate::result::ResultDoc;
 pub fn check(path: &Path) -> Result<String> {
     let recipe = recipe::load(path)?;
     let prep = crate::model::prepare(&recipe)?;
+    metrology::check_variables(&recipe, &prep.model)?;
     let ds = &prep.data;
     let filtered = if prep.rows_filtered > 0 {
         format!(", {} filtered out", prep.rows_filtered)
@@ -53,6 +55,9 @@ pub struct RunSettings {
     /// Read the history only up to (not including) this run id — `verify` re-runs a past run
     /// against the history as it was then.
     pub history_before: Option<String>,
+    /// `--as-found`: judge the new data against the last curve whose criteria were met before
+    /// fitting (SPEC §14).
+    pub as_found: bool,
 }
 
 /// Where a recipe's runs and history go (SPEC §13).
@@ -111,7 +116,16 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
             .map(|(k, v)| (k.clone(), v.value))
             .collect(),
     });
-    let (rows, verdict) = outputs::judge(&recipe, &prep, &solved, &diag, baseline);
+    let (rows, _) = outputs::judge(&recipe, &prep, &solved, &diag, baseline);
+    let metro = metrology::evaluate(
+        &recipe,
+        &prep,
+        &solved,
+        &history,
+        settings.as_found,
+        &dir.join("history.jsonl"),
+    )?;
+    let (rows, verdict) = metro.judge(&recipe, rows, solved.estimate.converged);
     let data_sha: Vec<String> = prep.data.files.iter().map(|f| f.sha256.clone()).collect();
     let hash = inputs_hash(&recipe.sha256, &data_sha);
     let run_id = report::write::run_id(settings.time, &hash)
@@ -129,7 +143,7 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     let mut plot_warnings = Vec::new();
     let plots = plots::plots(&recipe, &prep, &solved, &history, &mut plot_warnings);
     warnings.extend(plot_warnings);
-    let doc = outputs::result_doc(
+    let mut doc = outputs::result_doc(
         &recipe,
         &prep,
         &solved,
@@ -141,6 +155,7 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
         serde_json::Value::Null,
         &warnings,
     );
+    metro.fill_result(&recipe, &mut doc);
     let mut context = outputs::report_context(&recipe, &prep, &solved, &diag, &doc, verdict, &rows);
     context.plots = plots;
     context.traceability.time_from_source_date_epoch = settings.time_from_epoch;
@@ -212,6 +227,7 @@ pub fn write(c: &mut Computed, settings: &RunSettings) -> Result<PathBuf> {
             .collect(),
             verdict: c.doc.verdict.clone(),
             result: Some(format!("{}/result.json", c.doc.run_id)),
+            supersedes: c.recipe.report.supersedes.clone(),
         };
         history::append(&c.dir.join("history.jsonl"), &line)?;
     }

@@ -89,7 +89,6 @@ pub fn judge(
             }
         })
         .collect();
-    let value = |at: &[(String, f64)]| value_at(prep, solved, at);
     let m = Measures {
         n: st.n,
         converged: est.converged,
@@ -108,7 +107,6 @@ pub fn judge(
         max_cooks_distance: diag.max_cooks.clone(),
         params,
         baseline,
-        value_at: &value,
     };
     acceptance::judge(&recipe.acceptance, &m)
 }
@@ -358,6 +356,8 @@ pub fn result_doc(
         calibration: None,
         warnings: warnings.to_vec(),
         settings: settings(recipe),
+        metrology: None,
+        as_found: None,
     }
 }
 
