@@ -115,6 +115,16 @@ pub struct Expanded {
 }
 
 impl Expanded {
+    /// The coverage factor as text: a chosen k as given ("2"), a t quantile to 3
+    /// significant digits ("2.92").
+    pub fn k_text(&self) -> String {
+        if self.approximate {
+            crate::acceptance::fmt_num(self.k)
+        } else {
+            crate::report::format::sig(self.k, 3)
+        }
+    }
+
     /// "k = 2, coverage probability approximately 95 %" or "k = 2.92, ν_eff = 16, coverage
     /// probability 99 %".
     pub fn describe(&self) -> String {
@@ -123,12 +133,7 @@ impl Expanded {
             Some(_) => String::new(),
             None => String::new(),
         };
-        // A chosen k is shown as given, a t quantile to 3 significant digits.
-        let k = if self.approximate {
-            crate::acceptance::fmt_num(self.k)
-        } else {
-            crate::report::format::sig(self.k, 3)
-        };
+        let k = self.k_text();
         format!(
             "k = {k}{nu}, coverage probability {}",
             if self.approximate {

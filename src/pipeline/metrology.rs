@@ -365,3 +365,319 @@ impl Metrology {
         doc.as_found = self.as_found.clone();
     }
 }
+
+fn with_unit(text: String, unit: &str) -> String {
+    if unit.is_empty() {
+        text
+    } else {
+        format!("{text} {unit}")
+    }
+}
+
+fn deviation_table(
+    d: &Deviations,
+    against: String,
+    note: &str,
+    response: (&str, &str),
+    predictor: (&str, &str),
+) -> crate::report::DeviationTable {
+    use crate::acceptance::fmt_num;
+    use crate::report::format;
+    let (reference_label, indicated_label, unit) = match d.axis {
+        crate::metrology::Axis::Response => (
+            format!("{} of the curve", response.0),
+            format!("{} measured", response.0),
+            response.1,
+        ),
+        crate::metrology::Axis::Predictor => (
+            format!("{} reference", predictor.0),
+            format!("{} read through the curve", predictor.0),
+            predictor.1,
+        ),
+    };
+    let label = |l: String| {
+        if unit.is_empty() {
+            l
+        } else {
+            format!("{l} ({unit})")
+        }
+    };
+    crate::report::DeviationTable {
+        against,
+        tolerance: d.tolerance.describe(unit),
+        rule: d.rule.name().into(),
+        summary: format!(
+            "{} of {} points pass ({})",
+            d.passed(),
+            d.points.len(),
+            d.tally()
+        ),
+        within: d.all_pass(),
+        note: Some(note.to_string()),
+        reference_label: label(reference_label),
+        indicated_label: label(indicated_label),
+        rows: d
+            .points
+            .iter()
+            .map(|p| {
+                let (deviation, expanded) = match p.deviation {
+                    Some(dev) if p.expanded > 0.0 => {
+                        format::value_with_uncertainty(dev, p.expanded)
+                    }
+                    Some(dev) => (fmt_num(dev), fmt_num(p.expanded)),
+                    None => ("—".into(), "—".into()),
+                };
+                crate::report::DeviationRow {
+                    origin: p.origin.clone(),
+                    reference: fmt_num(p.reference),
+                    indicated: p.indicated.map_or("—".into(), fmt_num),
+                    deviation,
+                    limit: if p.limit.is_finite() {
+                        format!("±{}", fmt_num(p.limit))
+                    } else {
+                        "—".into()
+                    },
+                    expanded,
+                    decision: match &p.note {
+                        Some(n) => format!("{} ({n})", p.decision.label()),
+                        None => p.decision.label().into(),
+                    },
+                    decision_code: p.decision.label().replace(' ', "-"),
+                }
+            })
+            .collect(),
+    }
+}
+
+fn uncertainty_section(
+    m: &Metrology,
+    response: (&str, &str),
+    predictor: (&str, &str),
+) -> Option<crate::report::UncertaintySection> {
+    use crate::acceptance::fmt_num;
+    use crate::report::format;
+    let unit_of = |var: &str| {
+        if var == response.0 {
+            response.1
+        } else if var == predictor.0 {
+            predictor.1
+        } else {
+            ""
+        }
+    };
+    let mid = m.read_offs.get(m.read_offs.len() / 2)?;
+    let result_unit = unit_of(&mid.read);
+    let budget = mid
+        .contributions
+        .iter()
+        .map(|c| crate::report::BudgetRow {
+            component: c.name.clone(),
+            u: with_unit(format::sig(c.u, 3), unit_of(&c.applies_to))
+                + &format!(" ({})", c.applies_to),
+            sensitivity: format::sig(c.sensitivity, 4),
+            contribution: with_unit(format::sig(c.contribution, 3), result_unit),
+            dof: c.dof.map_or("∞".into(), |d| fmt_num(d.floor())),
+        })
+        .collect();
+    let (v, u) = format::value_with_uncertainty(mid.value, mid.expanded.expanded);
+    let mut notes = vec![format!(
+        "Read-offs are inverse: {} from the mean of m = 1 new reading of {}. The fit component is the prediction standard error √(gᵀCg + s²/(m·w₀)) at that point times the sensitivity 1/slope; it holds the new reading's scatter about the curve, so repeatability is not listed again. Components in {} enter through the same sensitivity, components in {} directly (JCGM 100:2008 5.1.2). Uncertainties are rounded to 2 significant digits and values to the same decimal place (JCGM 100:2008 7.2.6).",
+        mid.read, mid.given, mid.given, mid.read
+    )];
+    if m.budget.components.is_empty() {
+        notes.push("The recipe lists no other components ([uncertainty] components, u of [[standards]]): these figures are the fit's contribution alone.".into());
+    }
+    if let Some(n) = &m.read_off_note {
+        notes.push(n.clone());
+    }
+    Some(crate::report::UncertaintySection {
+        coverage: m.budget.coverage.describe(),
+        budget_point: format!(
+            "{} read from one new reading {} = {} at {} = {} (mid-range)",
+            mid.read,
+            mid.given,
+            with_unit(fmt_num(mid.input), unit_of(&mid.given)),
+            mid.read,
+            with_unit(fmt_num(mid.value), result_unit)
+        ),
+        budget,
+        combined: with_unit(format::sig(mid.expanded.u_c, 3), result_unit),
+        expanded: format!(
+            "{} = {v} ± {} (U, {})",
+            mid.read,
+            with_unit(u, result_unit),
+            mid.expanded.describe()
+        ),
+        range: m
+            .read_offs
+            .iter()
+            .map(|r| {
+                let (v, u) = format::value_with_uncertainty(r.value, r.expanded.expanded);
+                crate::report::ReadOffRow {
+                    given: format!(
+                        "{} = {}",
+                        r.given,
+                        with_unit(fmt_num(r.input), unit_of(&r.given))
+                    ),
+                    value: format!("{} = {v} ± {}", r.read, with_unit(u.clone(), result_unit)),
+                    u_c: format::uncertainty(r.expanded.u_c),
+                    k: match r.expanded.nu_eff {
+                        Some(nu) if nu < 1e6 => {
+                            format!("{} (ν_eff = {})", r.expanded.k_text(), nu.floor() as i64)
+                        }
+                        _ => r.expanded.k_text(),
+                    },
+                    expanded: u,
+                }
+            })
+            .collect(),
+        notes,
+    })
+}
+
+impl Metrology {
+    /// The §14 parts of the report context: record, decision rule, calibration record,
+    /// as-found and as-left tables, uncertainty, coefficients.
+    pub fn fill_context(
+        &self,
+        recipe: &Recipe,
+        doc: &ResultDoc,
+        ctx: &mut crate::report::ReportContext,
+    ) {
+        use crate::report::{
+            CalibrationRecord, CoefficientRow, KeyValue, MeasurementCondition, ReportRecord,
+            StandardRow,
+        };
+        let spec = &recipe.metrology;
+        let response = (
+            doc.model.response.as_str(),
+            recipe.data.unit(&doc.model.response),
+        );
+        let predictor_name = doc.model.predictors.first().map_or("", String::as_str);
+        let predictor = (predictor_name, recipe.data.unit(predictor_name));
+        ctx.record = ReportRecord {
+            report_id: report_id(&recipe.name.value, &doc.run_id),
+            issued_on: Date::parse(&doc.generated_at)
+                .map_or_else(|| doc.generated_at.clone(), |d| d.to_string()),
+            measured_on: spec.measured_on.as_ref().map(|d| d.value.to_string()),
+            supersedes: recipe.report.supersedes.clone(),
+        };
+        let has_tolerances =
+            !recipe.acceptance.points.is_empty() || spec.decision.tolerance.is_some();
+        if has_tolerances || !spec.is_empty() {
+            ctx.decision_rule = Some(spec.decision.rule.describe().to_string());
+        }
+        let mut record = CalibrationRecord::default();
+        if let Some(item) = &spec.item {
+            record.item = [
+                ("Description", &item.description),
+                ("Asset or serial number", &item.id),
+            ]
+            .into_iter()
+            .filter_map(|(k, v)| Some(KeyValue::new(k, v.clone()?)))
+            .collect();
+        }
+        if let Some(p) = &spec.procedure {
+            record.procedure = [("Procedure", &p.id), ("Revision", &p.revision)]
+                .into_iter()
+                .filter_map(|(k, v)| Some(KeyValue::new(k, v.clone()?)))
+                .collect();
+        }
+        record.standards = spec
+            .standards
+            .iter()
+            .map(|s| {
+                let st = &s.standard;
+                StandardRow {
+                    id: st.id.clone(),
+                    certificate: st.certificate.clone().unwrap_or_else(|| "—".into()),
+                    due: st.due.map_or("—".into(), |d| d.to_string()),
+                    uncertainty: match (&st.u, &st.applies_to) {
+                        (Some(u), Some(v)) => {
+                            let unit = if v == response.0 {
+                                response.1
+                            } else {
+                                predictor.1
+                            };
+                            format!(
+                                "u = {} ({v})",
+                                with_unit(crate::acceptance::fmt_num(*u), unit)
+                            )
+                        }
+                        _ => "—".into(),
+                    },
+                    status: match (st.due, &spec.measured_on) {
+                        (Some(_), Some(m)) => {
+                            format!("current on the measurement date {}", m.value)
+                        }
+                        _ => "no due date given".into(),
+                    },
+                }
+            })
+            .collect();
+        record.conditions = spec
+            .conditions
+            .iter()
+            .map(|c| {
+                let c = &c.condition;
+                let unit = c.unit.as_deref().unwrap_or("");
+                let f = crate::acceptance::fmt_num;
+                MeasurementCondition {
+                    name: c.name.clone(),
+                    value: with_unit(f(c.value), unit),
+                    limits: match (c.min, c.max) {
+                        (Some(lo), Some(hi)) => format!("{} … {}", f(lo), with_unit(f(hi), unit)),
+                        (Some(lo), None) => format!("≥ {}", with_unit(f(lo), unit)),
+                        (None, Some(hi)) => format!("≤ {}", with_unit(f(hi), unit)),
+                        (None, None) => "—".into(),
+                    },
+                    status: match c.within() {
+                        Some(true) => "within limits".into(),
+                        Some(false) => "outside limits".into(),
+                        None => "no limits".into(),
+                    },
+                }
+            })
+            .collect();
+        if !(record.item.is_empty()
+            && record.procedure.is_empty()
+            && record.standards.is_empty()
+            && record.conditions.is_empty())
+        {
+            ctx.calibration = Some(record);
+        }
+        if let Some(af) = &doc.as_found {
+            let date = Date::parse(&af.against_time)
+                .map_or_else(|| af.against_time.clone(), |d| d.to_string());
+            ctx.as_found = Some(deviation_table(
+                &af.deviations,
+                format!(
+                    "the curve of run {} ({date}), the last whose criteria were met",
+                    af.against_run
+                ),
+                "Before adjustment: each point of the new data against the previous curve. U of a deviation is that of the listed components through the previous curve's slope (that curve is what the instrument used).",
+                response,
+                predictor,
+            ));
+        }
+        if let Some(al) = &self.as_left {
+            ctx.as_left = Some(deviation_table(
+                al,
+                "the new curve (as left)".into(),
+                "After the fit: each calibration point against the new curve. U of a deviation combines the new curve's fit uncertainty with the listed components.",
+                response,
+                predictor,
+            ));
+        }
+        ctx.uncertainty = uncertainty_section(self, response, predictor);
+        ctx.coefficients = doc
+            .parameters
+            .iter()
+            .map(|p| CoefficientRow {
+                name: p.name.clone(),
+                value: crate::report::format::full(p.value),
+                unit: p.unit.clone(),
+            })
+            .collect();
+    }
+}

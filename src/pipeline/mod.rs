@@ -157,6 +157,7 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     );
     metro.fill_result(&recipe, &mut doc);
     let mut context = outputs::report_context(&recipe, &prep, &solved, &diag, &doc, verdict, &rows);
+    metro.fill_context(&recipe, &doc, &mut context);
     context.plots = plots;
     context.traceability.time_from_source_date_epoch = settings.time_from_epoch;
     Ok(Computed {
@@ -252,6 +253,12 @@ pub fn summary_text(c: &Computed) -> String {
     let d = &c.doc;
     let mut s = format!("{} — {}\n", d.recipe.name, d.recipe.title);
     s.push_str(&format!("  verdict: {}\n", c.verdict.wording()));
+    if let Some(af) = &d.as_found {
+        s.push_str(&format!(
+            "  as found (against run {}): {}\n",
+            af.against_run, af.summary
+        ));
+    }
     s.push_str(&format!(
         "  model: {}   ({}; {})\n",
         d.model.equation, d.fit.method_used, d.fit.stop_reason

@@ -418,6 +418,14 @@ fn opt(v: Option<f64>) -> String {
     v.map_or("—".into(), fmt::num)
 }
 
+/// An interval end at the decimal place of the standard error (GUM 7.2.6), or [`opt`].
+fn rounded_like(v: Option<f64>, se: Option<f64>) -> String {
+    match (v, se) {
+        (Some(v), Some(se)) => fmt::value_with_uncertainty(v, se).0,
+        (v, _) => opt(v),
+    }
+}
+
 /// The report context of a run.
 pub fn report_context(
     recipe: &Recipe,
@@ -560,7 +568,12 @@ pub fn report_context(
             .iter()
             .map(|p| report::ParameterRow {
                 name: p.name.clone(),
-                value: fmt::full(p.value),
+                // GUM 7.2.6: the value to the decimal place of its 2-digit standard error; full
+                // precision is in the coefficient table.
+                value: p.std_error.map_or_else(
+                    || fmt::full(p.value),
+                    |se| fmt::value_with_uncertainty(p.value, se).0,
+                ),
                 std_error: p.std_error.map_or_else(
                     || {
                         if p.fixed {
@@ -571,11 +584,11 @@ pub fn report_context(
                             "—".into()
                         }
                     },
-                    fmt::num,
+                    fmt::uncertainty,
                 ),
                 rel_std_error: p.rel_std_error.map_or("—".into(), |r| fmt::percent(r, 3)),
-                ci_low: opt(p.ci_low),
-                ci_high: opt(p.ci_high),
+                ci_low: rounded_like(p.ci_low, p.std_error),
+                ci_high: rounded_like(p.ci_high, p.std_error),
                 unit: p.unit.clone(),
                 note: if p.fixed {
                     Some("held fixed".into())
