@@ -329,6 +329,52 @@ mod tests {
         }
     }
 
+    fn outcome(verdict: Verdict) -> RunOutcome {
+        RunOutcome {
+            recipe: PathBuf::from("recipes/probe.toml"),
+            name: "probe".into(),
+            channel: None,
+            verdict,
+            wording: verdict.wording().into(),
+            figures: "R² 0.9999".into(),
+            report_dir: None,
+            failed: if verdict == Verdict::Rejected {
+                vec!["R² ≥ 0.9999: measured 0.99".into()]
+            } else {
+                Vec::new()
+            },
+            error: None,
+            exit_code: verdict.exit_code(),
+            seconds: 0.1,
+        }
+    }
+
+    #[test]
+    fn people_read_the_spec_wording_never_the_word_accepted() {
+        // SPEC §7/§13: "criteria met — awaiting review", "criteria not met", "invalid input";
+        // the codes stay in JSON only.
+        let all = [
+            outcome(Verdict::Accepted),
+            outcome(Verdict::Rejected),
+            outcome(Verdict::NotJudged),
+            outcome(Verdict::Invalid),
+        ];
+        let table = summary_table(&all);
+        let junit = junit_xml(&all);
+        for text in [&table, &junit] {
+            assert!(!text.to_lowercase().contains("accepted"), "{text}");
+            assert!(!text.to_lowercase().contains("rejected"), "{text}");
+        }
+        assert!(table.contains("criteria met — awaiting review"));
+        assert!(table.contains("criteria not met"));
+        assert!(table.contains("invalid input"));
+        assert!(junit.contains("message=\"criteria not met\""));
+        assert!(
+            json_summary(&all).contains("\"verdict\": \"accepted\""),
+            "codes stay in JSON"
+        );
+    }
+
     #[test]
     fn shard_syntax_is_checked() {
         assert_eq!(parse_shard("2/4").ok(), Some((2, 4)));

@@ -48,6 +48,10 @@ enum Command {
         /// Do not append to the history.
         #[arg(long)]
         no_history: bool,
+        /// Before fitting, judge the new data against the last curve whose criteria were met
+        /// (as found), then fit and judge as usual (as left).
+        #[arg(long)]
+        as_found: bool,
         /// Run only shard K of N (a deterministic split by recipe path).
         #[arg(long, value_name = "K/N")]
         shard: Option<String>,
@@ -132,6 +136,7 @@ pub fn main() -> i32 {
             json,
             junit,
             no_history,
+            as_found,
             shard,
             quiet,
         } => run(RunArgs {
@@ -142,6 +147,7 @@ pub fn main() -> i32 {
             json,
             junit,
             no_history,
+            as_found,
             shard,
             quiet,
         }),
@@ -246,6 +252,7 @@ struct RunArgs {
     json: bool,
     junit: Option<PathBuf>,
     no_history: bool,
+    as_found: bool,
     shard: Option<String>,
     quiet: bool,
 }
@@ -298,6 +305,7 @@ fn run(args: RunArgs) -> Result<i32> {
         time_from_epoch: from_epoch,
         verbose: recipes.len() == 1 && !args.quiet && !args.json,
         history_before: None,
+        as_found: args.as_found,
     };
     let options = crate::batch::BatchOptions {
         jobs: args.jobs,

@@ -19,6 +19,7 @@ pub mod hash;
 pub mod history;
 pub mod index;
 pub mod init;
+pub mod metrology;
 pub mod model;
 pub mod pipeline;
 pub mod predict;

@@ -49,6 +49,66 @@ pub struct ResultDoc {
     pub warnings: Vec<String>,
     /// Every setting that influenced the numbers.
     pub settings: BTreeMap<String, String>,
+    /// The calibration record of SPEC §14 (report id, dates, item, procedure, standards,
+    /// conditions, uncertainty budget, decision rule); absent in results of older versions.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub metrology: Option<MetrologyDoc>,
+    /// `run --as-found`: the new data judged against the last curve that met its criteria,
+    /// before the new fit.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub as_found: Option<AsFoundDoc>,
+}
+
+/// The calibration record of a run (SPEC §14).
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct MetrologyDoc {
+    /// `<name>-<run id>`, unique per report.
+    pub report_id: String,
+    /// The report id this one amends and replaces (`[report] supersedes`).
+    pub supersedes: Option<String>,
+    /// Date of issue: the UTC date of the run.
+    pub issued_on: Option<crate::metrology::Date>,
+    /// `[conditions] measured_on`.
+    pub measured_on: Option<crate::metrology::Date>,
+    pub item: Option<crate::metrology::record::Item>,
+    pub procedure: Option<crate::metrology::record::Procedure>,
+    pub standards: Vec<crate::metrology::record::Standard>,
+    pub conditions: Vec<crate::metrology::record::Condition>,
+    /// Components (the standards that state `u`, then `[uncertainty] components`) and the
+    /// coverage rule: what `predict` combines with the fit uncertainty.
+    pub budget: crate::metrology::Budget,
+    pub decision_rule: crate::metrology::DecisionRule,
+    /// `[decision] tolerance` / `tolerance_x`, the tolerance of every calibration point.
+    pub tolerance: Option<ToleranceDoc>,
+    /// Values read off the curve across the calibrated range with their budgets (inverse:
+    /// the predictor from one new reading).
+    pub read_offs: Vec<crate::metrology::ReadOff>,
+    /// The calibration points against the new curve (with `[decision] tolerance`).
+    pub as_left: Option<crate::metrology::as_found::Deviations>,
+    /// Why read-offs could not be computed, if they could not (e.g. several predictors).
+    pub read_off_note: Option<String>,
+}
+
+/// A tolerance and the variable it is in.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct ToleranceDoc {
+    pub tolerance: crate::metrology::Tolerance,
+    pub axis: crate::metrology::Axis,
+    /// As a procedure writes it, e.g. "±(0.05 % of reading + 0.02 % of full scale 100 °C)".
+    pub text: String,
+}
+
+/// The as-found judgement of `run --as-found`.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct AsFoundDoc {
+    /// The run whose curve the new data were judged against.
+    pub against_run: String,
+    pub against_time: String,
+    /// Whether every point passed under the decision rule.
+    pub within_tolerance: bool,
+    /// "18 of 19 points pass (18 pass, 1 conditional pass)".
+    pub summary: String,
+    pub deviations: crate::metrology::as_found::Deviations,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]

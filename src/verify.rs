@@ -81,6 +81,7 @@ pub fn verify(result: &Path) -> Result<Findings> {
         time_from_epoch: true,
         verbose: false,
         history_before: Some(doc.run_id.clone()),
+        as_found: doc.as_found.is_some(),
     };
     let mut c = match pipeline::compute(&path, &settings) {
         Ok(c) => c,

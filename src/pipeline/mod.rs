@@ -3,6 +3,7 @@
 
 pub mod compare;
 pub mod diagnostics;
+pub mod metrology;
 pub mod outputs;
 pub mod plots;
 pub mod solve;
@@ -39,6 +40,7 @@ impl Checked {
 
 /// Validate one prepared model: the analysis must not find it unidentifiable.
 fn check_prepared(recipe: &Recipe, prep: &crate::model::Prepared) -> Result<String> {
+    metrology::check_variables(recipe, &prep.model)?;
     let analysis = solve::analyse(recipe, prep)?;
     solve::refuse_unidentifiable(recipe, &analysis)?;
     Ok(rows_summary(prep))
@@ -111,6 +113,9 @@ pub struct RunSettings {
     /// Read the history only up to (not including) this run id — `verify` re-runs a past run
     /// against the history as it was then.
     pub history_before: Option<String>,
+    /// `--as-found`: judge the new data against the last curve whose criteria were met before
+    /// fitting (SPEC §14).
+    pub as_found: bool,
 }
 
 /// Where a recipe's runs and history go (SPEC §13).
@@ -233,7 +238,16 @@ pub fn compute_prepared(
             .map(|(k, v)| (k.clone(), v.value))
             .collect(),
     });
-    let (rows, verdict) = outputs::judge(&recipe, &prep, &solved, &diag, baseline);
+    let (rows, _) = outputs::judge(&recipe, &prep, &solved, &diag, baseline);
+    let metro = metrology::evaluate(
+        &recipe,
+        &prep,
+        &solved,
+        &history,
+        settings.as_found,
+        &dir.join("history.jsonl"),
+    )?;
+    let (rows, verdict) = metro.judge(&recipe, rows, solved.estimate.converged);
     let data_sha: Vec<String> = prep.data.files.iter().map(|f| f.sha256.clone()).collect();
     let hash = inputs_hash(&recipe.sha256, &data_sha);
     let mut run_id = report::write::run_id(settings.time, &hash)
@@ -260,7 +274,7 @@ pub fn compute_prepared(
     let mut plot_warnings = Vec::new();
     let plots = plots::plots(&recipe, &prep, &solved, &history, &mut plot_warnings);
     warnings.extend(plot_warnings);
-    let doc = outputs::result_doc(
+    let mut doc = outputs::result_doc(
         &recipe,
         &prep,
         &solved,
@@ -273,7 +287,6 @@ pub fn compute_prepared(
         &warnings,
         start_diag.as_ref(),
     );
-    let mut doc = doc;
     doc.channel = channel.clone();
     let comparisons = compare::compare(&recipe, &prep, &solved)?;
     doc.compare = comparisons
@@ -282,7 +295,9 @@ pub fn compute_prepared(
         .collect();
     doc.calibration = outputs::calibration_figures(&recipe, &prep, &solved)
         .map(|c| serde_json::to_value(&c).unwrap_or_default());
+    metro.fill_result(&recipe, &mut doc);
     let mut context = outputs::report_context(&recipe, &prep, &solved, &diag, &doc, verdict, &rows);
+    metro.fill_context(&recipe, &doc, &mut context);
     context.analysis = Some(outputs::analysis_summary(&analysis));
     context.compare = compare::rows(&comparisons);
     if let Some(c) = outputs::calibration_figures(&recipe, &prep, &solved) {
@@ -361,6 +376,7 @@ pub fn write(c: &mut Computed, settings: &RunSettings) -> Result<PathBuf> {
             .collect(),
             verdict: c.doc.verdict.clone(),
             result: Some(format!("{}/result.json", c.doc.run_id)),
+            supersedes: c.recipe.report.supersedes.clone(),
         };
         history::append(&c.dir.join("history.jsonl"), &line)?;
     }
@@ -385,6 +401,12 @@ pub fn summary_text(c: &Computed) -> String {
     let d = &c.doc;
     let mut s = format!("{} — {}\n", d.recipe.name, d.recipe.title);
     s.push_str(&format!("  verdict: {}\n", c.verdict.wording()));
+    if let Some(af) = &d.as_found {
+        s.push_str(&format!(
+            "  as found (against run {}): {}\n",
+            af.against_run, af.summary
+        ));
+    }
     s.push_str(&format!(
         "  model: {}   ({}; {})\n",
         d.model.equation, d.fit.method_used, d.fit.stop_reason

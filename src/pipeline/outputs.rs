@@ -89,7 +89,6 @@ pub fn judge(
             }
         })
         .collect();
-    let value = |at: &[(String, f64)]| value_at(prep, solved, at);
     let m = Measures {
         n: st.n,
         converged: est.converged,
@@ -108,7 +107,6 @@ pub fn judge(
         max_cooks_distance: diag.max_cooks.clone(),
         params,
         baseline,
-        value_at: &value,
     };
     acceptance::judge(&recipe.acceptance, &m)
 }
@@ -359,6 +357,8 @@ pub fn result_doc(
         calibration: None,
         warnings: warnings.to_vec(),
         settings: settings(recipe),
+        metrology: None,
+        as_found: None,
     }
 }
 
@@ -417,6 +417,14 @@ fn column_text(c: &ColumnRef) -> String {
 
 fn opt(v: Option<f64>) -> String {
     v.map_or("—".into(), fmt::num)
+}
+
+/// An interval end at the decimal place of the standard error (GUM 7.2.6), or [`opt`].
+fn rounded_like(v: Option<f64>, se: Option<f64>) -> String {
+    match (v, se) {
+        (Some(v), Some(se)) => fmt::value_with_uncertainty(v, se).0,
+        (v, _) => opt(v),
+    }
 }
 
 /// The report context of a run.
@@ -561,7 +569,12 @@ pub fn report_context(
             .iter()
             .map(|p| report::ParameterRow {
                 name: p.name.clone(),
-                value: fmt::full(p.value),
+                // GUM 7.2.6: the value to the decimal place of its 2-digit standard error; full
+                // precision is in the coefficient table.
+                value: p.std_error.map_or_else(
+                    || fmt::full(p.value),
+                    |se| fmt::value_with_uncertainty(p.value, se).0,
+                ),
                 std_error: p.std_error.map_or_else(
                     || {
                         if p.fixed {
@@ -572,11 +585,11 @@ pub fn report_context(
                             "—".into()
                         }
                     },
-                    fmt::num,
+                    fmt::uncertainty,
                 ),
                 rel_std_error: p.rel_std_error.map_or("—".into(), |r| fmt::percent(r, 3)),
-                ci_low: opt(p.ci_low),
-                ci_high: opt(p.ci_high),
+                ci_low: rounded_like(p.ci_low, p.std_error),
+                ci_high: rounded_like(p.ci_high, p.std_error),
                 unit: p.unit.clone(),
                 note: if p.fixed {
                     Some("held fixed".into())

@@ -170,6 +170,7 @@ pub fn compute(case: &RecipeCase) -> fitwright::Result<ResultDoc> {
         time_from_epoch: true,
         verbose: false,
         history_before: None,
+        as_found: false,
     };
     pipeline::compute(&case.recipe, &settings).map(|c| c.doc)
 }
