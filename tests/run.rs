@@ -319,7 +319,7 @@ fn drift_passes_against_itself_and_fails_against_a_shifted_history() {
     );
     run_with_epoch(&c, &["run", "r.toml"], "1796000000")
         .expect_code(0)
-        .expect_contains(&["no earlier accepted run"]);
+        .expect_contains(&["no earlier run whose criteria were met"]);
     run_with_epoch(&c, &["run", "r.toml"], "1796000100")
         .expect_code(0)
         .expect_contains(&["[pass] relative change of b1"]);
