@@ -450,3 +450,50 @@ fn predict_forward_then_inverse_round_trips_within_1e_9() {
         .expect_code(0)
         .expect_contains(&["extrapolated"]);
 }
+
+#[test]
+fn sixteen_channel_export_gives_sixteen_results_with_one_invalid_channel() {
+    let out = tempfile::tempdir().expect("tempdir");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_fitwright"))
+        .args([
+            "run",
+            "examples/logger-tl16.toml",
+            "--json",
+            "--no-history",
+            "--out",
+        ])
+        .arg(out.path())
+        .current_dir(util::repo_root())
+        .output()
+        .expect("run");
+    assert_eq!(
+        o.status.code(),
+        Some(2),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).expect("json summary");
+    let results = v["results"].as_array().expect("results");
+    assert_eq!(results.len(), 16, "one result per channel");
+    let invalid: Vec<&str> = results
+        .iter()
+        .filter(|r| r["verdict"] == "invalid")
+        .filter_map(|r| r["channel"].as_str())
+        .collect();
+    assert_eq!(
+        invalid,
+        ["CH07"],
+        "only the channel with the overload cell is invalid"
+    );
+    assert!(
+        results
+            .iter()
+            .filter(|r| r["verdict"] == "accepted")
+            .count()
+            == 15
+    );
+    assert!(
+        out.path().join("logger-tl16/CH01").is_dir()
+            && !out.path().join("logger-tl16/CH07").exists()
+    );
+}
