@@ -809,7 +809,7 @@ fn difference_table(
         .zip(&b)
         .filter(|(x, _)| !x.fixed)
         .map(|(x, y)| {
-            let d = x.value - y.value;
+            let d = y.value - x.value;
             report::DifferenceRow {
                 name: x.name.clone(),
                 from: fmt::full(x.value),
@@ -836,7 +836,7 @@ fn difference_table(
         from_label: "linearized start".into(),
         to_label: "refined".into(),
         note: Some(format!(
-            "the difference is the bias of the linearized fit (start − refined, also in units of the refined standard error). Linearized start: {start_line}; refined: {}",
+            "refined − linearized start: the bias of the linearized fit, also in units of the refined standard error. Linearized start: {start_line}; refined: {}",
             fit_line(&doc.statistics, &doc.diagnostics)
         )),
         rows,
