@@ -26,6 +26,7 @@ pub mod recipes;
 pub mod report;
 pub mod result;
 pub mod source;
+pub mod validate;
 pub mod verify;
 
 pub use error::{Error, ErrorKind, Result};
