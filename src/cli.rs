@@ -103,6 +103,16 @@ enum Command {
         /// A result.json written by `fitwright run`.
         result: PathBuf,
     },
+    /// Write the software validation report (exact problems, and the NIST StRD files when
+    /// given) as HTML and Markdown.
+    Validate {
+        /// A folder holding the NIST StRD collections (linear/ and nonlinear/ .dat files).
+        #[arg(long, value_name = "DIR")]
+        strd: Option<PathBuf>,
+        /// Output folder (default: validation/).
+        #[arg(long, value_name = "DIR", default_value = "validation")]
+        out: PathBuf,
+    },
     /// Write a commented starter recipe NAME.toml in the current folder.
     Init {
         /// Recipe name ([a-z0-9._-]+); also the file name.
@@ -167,6 +177,7 @@ pub fn main() -> i32 {
         } => predict(&result, &at, &inverse, replicates, level, extrapolate, json),
         Command::Explain { recipe, json } => explain(&recipe, json),
         Command::Models => models(),
+        Command::Validate { strd, out } => validate(strd.as_deref(), &out),
         Command::Init { name, preset, data } => init(&name, preset.as_deref(), data.as_deref()),
     };
     match result {
@@ -605,4 +616,30 @@ fn predict(
         }
     }
     Ok(0)
+}
+
+/// `fitwright validate`: exit 0 when every validation criterion is met, else 1.
+fn validate(strd: Option<&std::path::Path>, out: &std::path::Path) -> Result<i32> {
+    let (time, _) = run_time()?;
+    let generated_at = crate::report::write::utc_timestamp(time)
+        .map_err(|e| Error::internal(format!("time: {e}")))?;
+    let v = crate::validate::validate(strd, generated_at)?;
+    for c in &v.criteria {
+        println!(
+            "{}  {} — {}",
+            if c.met { "met    " } else { "NOT MET" },
+            c.text,
+            c.measured
+        );
+    }
+    for path in crate::validate::write(&v, out)? {
+        println!("wrote {}", path.display());
+    }
+    if v.met() {
+        println!("validation criteria met — awaiting review");
+        Ok(0)
+    } else {
+        println!("validation criteria not met");
+        Ok(1)
+    }
 }

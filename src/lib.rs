@@ -29,6 +29,7 @@ pub mod report;
 pub mod result;
 pub mod source;
 pub mod stats;
+pub mod validate;
 pub mod verify;
 
 pub use error::{Error, ErrorKind, Result};

@@ -333,3 +333,60 @@ fn stored_result_gives_predict_the_same_read_off_and_its_warnings() {
     assert_eq!(w.len(), 1, "{w:?}");
     assert!(w[0].contains("superseded by the amended report"), "{w:?}");
 }
+
+#[test]
+fn demo_recipe_probe_ref_cal_runs_as_the_readme_shows() {
+    // scripts/demo_probe_ref_cal.sh: last year's calibration, then this year's with
+    // --as-found (the README excerpt). The data are invented with a fixed seed
+    // (scripts/make_probe_ref_data.py), so the as-found outcome is fixed: the probe's B drifted
+    // from 3947 to 3953.5 K, which reads 0.08 °C low at −30 °C, inside ±0.1 °C by less than U.
+    let out = tempfile::tempdir().expect("temporary folder");
+    let root = util::repo_root();
+    let status = std::process::Command::new("sh")
+        .arg(root.join("scripts/demo_probe_ref_cal.sh"))
+        .arg(out.path())
+        .env("FITWRIGHT", env!("CARGO_BIN_EXE_fitwright"))
+        .output()
+        .expect("run the demo script");
+    assert!(
+        status.status.success(),
+        "{}{}",
+        String::from_utf8_lossy(&status.stdout),
+        String::from_utf8_lossy(&status.stderr)
+    );
+    let dir = out.path().join("probe-ref-cal");
+    let mut runs: Vec<_> = std::fs::read_dir(&dir)
+        .expect("runs")
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .filter(|p| p.join("result.json").is_file())
+        .collect();
+    runs.sort();
+    assert_eq!(runs.len(), 2);
+    let doc = ResultDoc::read(&runs[1].join("result.json")).expect("this year's result");
+    assert_eq!(doc.verdict, "accepted");
+    let m = doc.metrology.as_ref().expect("record");
+    assert_eq!(
+        m.supersedes.as_deref(),
+        Some("probe-ref-cal-20261127T140000Z-4c1d9e27")
+    );
+    assert_eq!(m.standards.len(), 1);
+    assert_eq!(m.conditions.len(), 2);
+    assert_eq!(m.budget.components.len(), 3, "standard, resolution, bath");
+    assert_eq!(m.read_offs.len(), 5);
+    let af = doc.as_found.as_ref().expect("as found");
+    assert_eq!(
+        af.summary,
+        "18 of 19 points pass (18 pass, 1 conditional pass)"
+    );
+    let md = std::fs::read_to_string(runs[1].join("report.md")).expect("report.md");
+    for section in [
+        "## Calibration record",
+        "## As found",
+        "## As left",
+        "## Measurement uncertainty of read-off values",
+        "do not round",
+        "**End of report**",
+    ] {
+        assert!(md.contains(section), "report.md lacks {section}");
+    }
+}

@@ -430,7 +430,13 @@ fn deviation_table(
                 crate::report::DeviationRow {
                     origin: p.origin.clone(),
                     reference: fmt_num(p.reference),
-                    indicated: p.indicated.map_or("—".into(), fmt_num),
+                    indicated: match p.indicated {
+                        Some(v) if p.expanded > 0.0 => {
+                            format::value_with_uncertainty(v, p.expanded).0
+                        }
+                        Some(v) => fmt_num(v),
+                        None => "—".into(),
+                    },
                     deviation,
                     limit: if p.limit.is_finite() {
                         format!("±{}", fmt_num(p.limit))
