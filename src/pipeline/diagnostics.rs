@@ -1,7 +1,7 @@
 //! Residual diagnostics of a solved fit (SPEC §6): the measures the criteria read and the
 //! rows the report shows.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 
 use crate::acceptance::{Measure, RunsMeasure};
 use crate::model::Prepared;
@@ -56,22 +56,35 @@ impl Diagnostics {
     }
 }
 
-/// Replicate groups: rows with identical predictor values (bit for bit) share a label.
+/// Replicate groups: rows with identical predictor values (bit for bit) share a label;
+/// labels are numbered in order of first appearance. One hash lookup per row, so large data
+/// sets with few replicates stay linear in n.
 pub fn replicate_groups(x: &[&[f64]], n: usize) -> Vec<usize> {
-    let mut keys: Vec<Vec<u64>> = Vec::new();
+    let k = x.len();
+    let bits: Vec<u64> = (0..n)
+        .flat_map(|i| {
+            x.iter()
+                .map(move |c| c.get(i).copied().unwrap_or(f64::NAN).to_bits())
+        })
+        .collect();
+    let mut ids: HashMap<&[u64], usize> = HashMap::with_capacity(n.min(1 << 16));
     (0..n)
         .map(|i| {
-            let key: Vec<u64> = x
-                .iter()
-                .map(|c| c.get(i).copied().unwrap_or(f64::NAN).to_bits())
-                .collect();
-            match keys.iter().position(|k| *k == key) {
-                Some(g) => g,
-                None => {
-                    keys.push(key);
-                    keys.len() - 1
-                }
-            }
+            let key = bits.get(i * k..(i + 1) * k).unwrap_or(&[]);
+            let next = ids.len();
+            *ids.entry(key).or_insert(next)
+        })
+        .collect()
+}
+
+/// Labels to group numbers, in order of first appearance.
+fn label_groups(labels: &[String]) -> Vec<usize> {
+    let mut ids: HashMap<&str, usize> = HashMap::new();
+    labels
+        .iter()
+        .map(|l| {
+            let next = ids.len();
+            *ids.entry(l.as_str()).or_insert(next)
         })
         .collect()
 }
@@ -269,18 +282,7 @@ pub fn compute(recipe: &Recipe, prep: &Prepared, solved: &Solved) -> Diagnostics
     // Lack of fit: replicate groups of equal predictor values.
     // Replicate groups: the `[fit] groups` column when given, else equal predictor values.
     let labels = match &prep.data.groups {
-        Some(g) => {
-            let mut names: Vec<&String> = Vec::new();
-            g.iter()
-                .map(|l| match names.iter().position(|m| *m == l) {
-                    Some(i) => i,
-                    None => {
-                        names.push(l);
-                        names.len() - 1
-                    }
-                })
-                .collect()
-        }
+        Some(g) => label_groups(g),
         None => replicate_groups(&x, n),
     };
     match stats::lack_of_fit::lack_of_fit(
@@ -341,5 +343,25 @@ fn na_row(test: &str, why: &stats::NotApplicable) -> DiagnosticRow {
         p_value: "—".into(),
         conclusion: "not applicable".into(),
         note: Some(na_text(why)),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn replicate_groups_number_equal_predictor_rows_in_order_of_first_appearance() {
+        let t = [20.0, 25.0, 20.0, 30.0, 25.0, 20.0];
+        let rh = [40.0, 40.0, 40.0, 40.0, 50.0, 40.0];
+        assert_eq!(replicate_groups(&[&t], 6), [0, 1, 0, 2, 1, 0]);
+        // With two predictors a row is a replicate only when both agree.
+        assert_eq!(replicate_groups(&[&t, &rh], 6), [0, 1, 0, 2, 3, 0]);
+    }
+
+    #[test]
+    fn group_labels_number_in_order_of_first_appearance() {
+        let labels: Vec<String> = ["b", "a", "b", "c"].iter().map(|s| s.to_string()).collect();
+        assert_eq!(label_groups(&labels), [0, 1, 0, 2]);
     }
 }
