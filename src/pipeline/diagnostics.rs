@@ -57,24 +57,42 @@ impl Diagnostics {
 }
 
 /// Replicate groups: rows with identical predictor values (bit for bit) share a label;
-/// labels are numbered in order of first appearance. One hash lookup per row, so large data
-/// sets with few replicates stay linear in n.
+/// labels are numbered in order of first appearance. Rows are ordered by a stable sort of
+/// their values (linear for data already in order, n·log n otherwise), so large data sets
+/// with few replicates need neither a quadratic search nor a hash table of every row.
 pub fn replicate_groups(x: &[&[f64]], n: usize) -> Vec<usize> {
-    let k = x.len();
-    let bits: Vec<u64> = (0..n)
-        .flat_map(|i| {
-            x.iter()
-                .map(move |c| c.get(i).copied().unwrap_or(f64::NAN).to_bits())
-        })
-        .collect();
-    let mut ids: HashMap<&[u64], usize> = HashMap::with_capacity(n.min(1 << 16));
-    (0..n)
-        .map(|i| {
-            let key = bits.get(i * k..(i + 1) * k).unwrap_or(&[]);
-            let next = ids.len();
-            *ids.entry(key).or_insert(next)
-        })
-        .collect()
+    let bits = |i: usize, c: &[f64]| c.get(i).copied().unwrap_or(f64::NAN).to_bits();
+    let cmp = |a: usize, b: usize| {
+        x.iter()
+            .map(|c| bits(a, c).cmp(&bits(b, c)))
+            .find(|o| o.is_ne())
+            .unwrap_or(std::cmp::Ordering::Equal)
+    };
+    let mut order: Vec<usize> = (0..n).collect();
+    order.sort_by(|&a, &b| cmp(a, b));
+    // The stable sort keeps row order among equal values: a run's first row is the group's
+    // first appearance.
+    let mut first = vec![0usize; n];
+    let mut run_start = 0;
+    for k in 0..order.len() {
+        if k == 0 || cmp(order[k - 1], order[k]).is_ne() {
+            run_start = order[k];
+        }
+        first[order[k]] = run_start;
+    }
+    let mut ids = vec![0usize; n];
+    let mut next = 0;
+    for i in 0..n {
+        let f = first[i];
+        ids[i] = if f == i {
+            next += 1;
+            next - 1
+        } else {
+            // f < i: its label is already set.
+            ids[f]
+        };
+    }
+    ids
 }
 
 /// Labels to group numbers, in order of first appearance.
@@ -357,6 +375,9 @@ mod tests {
         assert_eq!(replicate_groups(&[&t], 6), [0, 1, 0, 2, 1, 0]);
         // With two predictors a row is a replicate only when both agree.
         assert_eq!(replicate_groups(&[&t, &rh], 6), [0, 1, 0, 2, 3, 0]);
+        // Unsorted values with a NaN (bit patterns compare, so NaN groups with itself).
+        let u = [3.0, f64::NAN, -1.0, 3.0, f64::NAN, 0.0, -0.0];
+        assert_eq!(replicate_groups(&[&u], 7), [0, 1, 2, 0, 1, 3, 4]);
     }
 
     #[test]
