@@ -1,6 +1,7 @@
-//! Running the fit methods of SPEC §5 on a prepared model: the model compiled once to a tape
-//! (value and exact Jacobian in one pass), weighted linear least squares for models linear in
-//! their parameters, Levenberg–Marquardt in the original space otherwise.
+//! Running the fit methods of SPEC §5 on a prepared model: the model compiled once to two
+//! tapes (the value alone, and the value with its exact Jacobian in one pass), weighted linear
+//! least squares for models linear in their parameters, Levenberg–Marquardt in the original
+//! space otherwise.
 
 use std::cell::RefCell;
 
@@ -13,9 +14,11 @@ use crate::fit::lm::{self, Bound, LmOptions, Model as LmModel, ModelError, Obser
 use crate::model::Prepared;
 
 /// The model `f(x; θ)` over the rows of the data, with fixed parameters substituted, as the
-/// Levenberg–Marquardt solver sees it. Output 0 of the tape is f, output 1 + j is ∂f/∂θⱼ.
+/// Levenberg–Marquardt solver sees it. Output 0 of `tape` is f, output 1 + j is ∂f/∂θⱼ;
+/// `value_tape` computes f alone, for the trial points that need no Jacobian.
 pub struct TapeModel<'a> {
     tape: MultiTape,
+    value_tape: MultiTape,
     columns: Vec<&'a [f64]>,
     n: usize,
     p: usize,
@@ -36,11 +39,15 @@ impl<'a> TapeModel<'a> {
             variables: predictors.to_vec(),
             parameters: free.to_vec(),
         };
-        let tape = MultiTape::model_and_jacobian(rhs, &symbols)
-            .map_err(|e| Error::internal(format!("the model does not compile: {}", e.message)))?;
+        let compile_error = |e: expr::ExprError| {
+            Error::internal(format!("the model does not compile: {}", e.message))
+        };
+        let tape = MultiTape::model_and_jacobian(rhs, &symbols).map_err(compile_error)?;
+        let value_tape = MultiTape::compile(&tape.exprs()[..1], &symbols).map_err(compile_error)?;
         let n = columns.first().map_or(0, |c| c.len());
         Ok(TapeModel {
             tape,
+            value_tape,
             columns,
             n,
             p: free.len(),
@@ -83,15 +90,8 @@ impl LmModel for TapeModel<'_> {
     }
 
     fn eval(&self, params: &[f64], f_out: &mut [f64]) -> std::result::Result<(), ModelError> {
-        // The Jacobian outputs are computed too (the tape is shared); they go to scratch space.
-        let mut j = vec![0.0; self.n * self.p];
-        let mut outs: Vec<&mut [f64]> = Vec::with_capacity(self.p + 1);
-        outs.push(f_out);
-        for chunk in j.chunks_mut(self.n.max(1)) {
-            outs.push(chunk);
-        }
-        self.tape
-            .eval(&self.columns, params, &mut outs)
+        self.value_tape
+            .eval(&self.columns, params, &mut [f_out])
             .map_err(|e| self.error(e))
     }
 

@@ -1,7 +1,7 @@
 //! Residual diagnostics of a solved fit (SPEC §6): the measures the criteria read and the
 //! rows the report shows.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 
 use crate::acceptance::{Measure, RunsMeasure};
 use crate::model::Prepared;
@@ -56,22 +56,53 @@ impl Diagnostics {
     }
 }
 
-/// Replicate groups: rows with identical predictor values (bit for bit) share a label.
+/// Replicate groups: rows with identical predictor values (bit for bit) share a label;
+/// labels are numbered in order of first appearance. Rows are ordered by a stable sort of
+/// their values (linear for data already in order, n·log n otherwise), so large data sets
+/// with few replicates need neither a quadratic search nor a hash table of every row.
 pub fn replicate_groups(x: &[&[f64]], n: usize) -> Vec<usize> {
-    let mut keys: Vec<Vec<u64>> = Vec::new();
-    (0..n)
-        .map(|i| {
-            let key: Vec<u64> = x
-                .iter()
-                .map(|c| c.get(i).copied().unwrap_or(f64::NAN).to_bits())
-                .collect();
-            match keys.iter().position(|k| *k == key) {
-                Some(g) => g,
-                None => {
-                    keys.push(key);
-                    keys.len() - 1
-                }
-            }
+    let bits = |i: usize, c: &[f64]| c.get(i).copied().unwrap_or(f64::NAN).to_bits();
+    let cmp = |a: usize, b: usize| {
+        x.iter()
+            .map(|c| bits(a, c).cmp(&bits(b, c)))
+            .find(|o| o.is_ne())
+            .unwrap_or(std::cmp::Ordering::Equal)
+    };
+    let mut order: Vec<usize> = (0..n).collect();
+    order.sort_by(|&a, &b| cmp(a, b));
+    // The stable sort keeps row order among equal values: a run's first row is the group's
+    // first appearance.
+    let mut first = vec![0usize; n];
+    let mut run_start = 0;
+    for k in 0..order.len() {
+        if k == 0 || cmp(order[k - 1], order[k]).is_ne() {
+            run_start = order[k];
+        }
+        first[order[k]] = run_start;
+    }
+    let mut ids = vec![0usize; n];
+    let mut next = 0;
+    for i in 0..n {
+        let f = first[i];
+        ids[i] = if f == i {
+            next += 1;
+            next - 1
+        } else {
+            // f < i: its label is already set.
+            ids[f]
+        };
+    }
+    ids
+}
+
+/// Labels to group numbers, in order of first appearance.
+fn label_groups(labels: &[String]) -> Vec<usize> {
+    let mut ids: HashMap<&str, usize> = HashMap::new();
+    labels
+        .iter()
+        .map(|l| {
+            let next = ids.len();
+            *ids.entry(l.as_str()).or_insert(next)
         })
         .collect()
 }
@@ -269,18 +300,7 @@ pub fn compute(recipe: &Recipe, prep: &Prepared, solved: &Solved) -> Diagnostics
     // Lack of fit: replicate groups of equal predictor values.
     // Replicate groups: the `[fit] groups` column when given, else equal predictor values.
     let labels = match &prep.data.groups {
-        Some(g) => {
-            let mut names: Vec<&String> = Vec::new();
-            g.iter()
-                .map(|l| match names.iter().position(|m| *m == l) {
-                    Some(i) => i,
-                    None => {
-                        names.push(l);
-                        names.len() - 1
-                    }
-                })
-                .collect()
-        }
+        Some(g) => label_groups(g),
         None => replicate_groups(&x, n),
     };
     match stats::lack_of_fit::lack_of_fit(
@@ -341,5 +361,28 @@ fn na_row(test: &str, why: &stats::NotApplicable) -> DiagnosticRow {
         p_value: "—".into(),
         conclusion: "not applicable".into(),
         note: Some(na_text(why)),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn replicate_groups_number_equal_predictor_rows_in_order_of_first_appearance() {
+        let t = [20.0, 25.0, 20.0, 30.0, 25.0, 20.0];
+        let rh = [40.0, 40.0, 40.0, 40.0, 50.0, 40.0];
+        assert_eq!(replicate_groups(&[&t], 6), [0, 1, 0, 2, 1, 0]);
+        // With two predictors a row is a replicate only when both agree.
+        assert_eq!(replicate_groups(&[&t, &rh], 6), [0, 1, 0, 2, 3, 0]);
+        // Unsorted values with a NaN (bit patterns compare, so NaN groups with itself).
+        let u = [3.0, f64::NAN, -1.0, 3.0, f64::NAN, 0.0, -0.0];
+        assert_eq!(replicate_groups(&[&u], 7), [0, 1, 2, 0, 1, 3, 4]);
+    }
+
+    #[test]
+    fn group_labels_number_in_order_of_first_appearance() {
+        let labels: Vec<String> = ["b", "a", "b", "c"].iter().map(|s| s.to_string()).collect();
+        assert_eq!(label_groups(&labels), [0, 1, 0, 2]);
     }
 }

@@ -200,6 +200,44 @@ fn matrix_rows(m: &nalgebra::DMatrix<f64>) -> Vec<Vec<f64>> {
         .collect()
 }
 
+/// The rows the residual table of `result.json` lists: every row up to
+/// [`RESIDUAL_ROWS_ALL`]; above, the [`RESIDUAL_ROWS_KEPT`] rows with the largest
+/// |standardized residual| (a row without one ranks by |residual| / s), in row order.
+fn residual_selection(
+    solved: &Solved,
+    diag: &Diagnostics,
+) -> (Vec<usize>, Option<ResidualSelection>) {
+    let residuals = &solved.estimate.residuals;
+    let n = residuals.len();
+    if n <= RESIDUAL_ROWS_ALL {
+        return ((0..n).collect(), None);
+    }
+    let s = solved.statistics.residual_sd;
+    let size = |i: usize| {
+        let v = match diag.standardized.get(i).copied().flatten() {
+            Some(r) => r.abs(),
+            None => residuals.get(i).map_or(0.0, |e| (e / s).abs()),
+        };
+        if v.is_nan() { f64::INFINITY } else { v }
+    };
+    let mut rows: Vec<usize> = (0..n).collect();
+    let k = RESIDUAL_ROWS_KEPT.min(n);
+    rows.select_nth_unstable_by(k - 1, |&a, &b| size(b).total_cmp(&size(a)));
+    rows.truncate(k);
+    rows.sort_unstable();
+    let rule = format!(
+        "the {k} rows with the largest |standardized residual| of {n} (every row is listed up to {RESIDUAL_ROWS_ALL} rows)"
+    );
+    (
+        rows,
+        Some(ResidualSelection {
+            total: n,
+            listed: k,
+            rule,
+        }),
+    )
+}
+
 /// Everything a run decided, as `result.json`.
 #[allow(clippy::too_many_arguments)]
 pub fn result_doc(
@@ -217,7 +255,9 @@ pub fn result_doc(
 ) -> ResultDoc {
     let x = prep.x();
     let y = prep.y();
-    let residuals = (0..prep.data.len())
+    let (listed, residual_rows) = residual_selection(solved, diag);
+    let residuals = listed
+        .into_iter()
         .map(|i| ResidualRow {
             origin: prep.data.describe_row(i),
             x: x.iter()
@@ -242,8 +282,10 @@ pub fn result_doc(
         })
         .collect();
     let mut ranges = BTreeMap::new();
+    let mut moments = BTreeMap::new();
     for (name, col) in prep.model.predictors.iter().zip(&x) {
         ranges.insert(name.clone(), range(col));
+        moments.insert(name.clone(), Moments::of(col));
     }
     ranges.insert(prep.model.response.clone(), range(y));
     let start_fit = solved.start.as_ref().map(|s| StartFit {
@@ -309,6 +351,7 @@ pub fn result_doc(
             units: recipe.data.units.clone(),
             ranges,
             weights: recipe.fit.weights.as_ref().map(|w| w.value.clone()),
+            moments,
         },
         model: ModelInfo {
             equation: prep.model.equation.clone(),
@@ -353,6 +396,7 @@ pub fn result_doc(
         statistics: statistics_doc(solved, diag),
         diagnostics: diag.to_json(),
         residuals,
+        residual_rows,
         compare: Vec::new(),
         calibration: None,
         warnings: warnings.to_vec(),

@@ -442,12 +442,26 @@ fn decimate(chart: &Chart<'_, '_>, points: &[(f64, f64)]) -> Vec<(f64, f64)> {
     if points.len() <= DECIMATE_ABOVE {
         return points.to_vec();
     }
-    let mut seen: HashSet<(i32, i32)> = HashSet::new();
+    // The cells of the plot area are a bitmap (a hash set of a million points cost more than
+    // drawing); points outside it, which the drawing clips, fall back to a set.
+    let (xs, ys) = chart.plotting_area().get_pixel_range();
+    let (cx0, cy0) = (xs.start.div_euclid(CELL_PX), ys.start.div_euclid(CELL_PX));
+    let cols = (xs.end.div_euclid(CELL_PX) - cx0 + 1).max(1);
+    let rows = (ys.end.div_euclid(CELL_PX) - cy0 + 1).max(1);
+    let mut grid = vec![false; (cols as usize) * (rows as usize)];
+    let mut outside: HashSet<(i32, i32)> = HashSet::new();
     points
         .iter()
         .filter(|p| {
             let (px, py) = chart.backend_coord(p);
-            seen.insert((px.div_euclid(CELL_PX), py.div_euclid(CELL_PX)))
+            let (cx, cy) = (px.div_euclid(CELL_PX), py.div_euclid(CELL_PX));
+            let (u, v) = (cx - cx0, cy - cy0);
+            if (0..cols).contains(&u) && (0..rows).contains(&v) {
+                let cell = &mut grid[(v * cols + u) as usize];
+                !std::mem::replace(cell, true)
+            } else {
+                outside.insert((cx, cy))
+            }
         })
         .copied()
         .collect()
