@@ -35,7 +35,4 @@ pub mod verify;
 pub use error::{Error, ErrorKind, Result};
 
 /// The caution of SPEC §12, shown in the README and every report.
-pub const CAUTION: &str = "Calibration results can feed decisions about safety, health and legal metrology. \
-This report is an aid to a qualified person's review; acceptance by this tool does not replace the \
-laboratory's documented procedure, its accreditation requirements (for example ISO/IEC 17025) or local \
-regulations, which prevail.";
+pub use report::context::CAUTION;
