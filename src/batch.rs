@@ -95,15 +95,32 @@ pub fn in_shard(path: &Path, (k, n): (usize, usize)) -> bool {
     (v % n as u64) as usize == k - 1
 }
 
-/// Run `work` over every recipe, in parallel, and return all outcomes in input order.
-pub fn run_all<F>(recipes: &[PathBuf], options: &BatchOptions, work: F) -> Result<Vec<RunOutcome>>
+/// Run `work` over every recipe and return all outcomes in input order. Recipes with the
+/// same `group` key (the same report folder, hence the same history) run one after another in
+/// input order, so that each run's drift criteria see the run before it; groups run in
+/// parallel.
+pub fn run_all<F, G>(
+    recipes: &[PathBuf],
+    options: &BatchOptions,
+    group: G,
+    work: F,
+) -> Result<Vec<RunOutcome>>
 where
     F: Fn(&Path) -> Vec<RunOutcome> + Sync,
+    G: Fn(&Path) -> String,
 {
     let selected: Vec<&PathBuf> = recipes
         .iter()
         .filter(|p| options.shard.is_none_or(|s| in_shard(p, s)))
         .collect();
+    let mut groups: Vec<(String, Vec<(usize, &PathBuf)>)> = Vec::new();
+    for (i, p) in selected.iter().enumerate() {
+        let key = group(p);
+        match groups.iter_mut().find(|(k, _)| *k == key) {
+            Some((_, members)) => members.push((i, p)),
+            None => groups.push((key, vec![(i, p)])),
+        }
+    }
     let show_bar = !options.quiet && std::io::stderr().is_terminal() && selected.len() > 1;
     let bar = if show_bar {
         let b = indicatif::ProgressBar::new(selected.len() as u64);
@@ -120,23 +137,29 @@ where
         .num_threads(options.jobs.unwrap_or(0))
         .build()
         .map_err(|e| Error::internal(format!("cannot start worker threads: {e}")))?;
-    let outcomes: Vec<Vec<RunOutcome>> = pool.install(|| {
-        selected
+    let mut outcomes: Vec<(usize, Vec<RunOutcome>)> = pool.install(|| {
+        groups
             .par_iter()
-            .map(|p| {
-                let out = work(p);
-                if let Some(b) = &bar {
-                    b.set_message(p.display().to_string());
-                    b.inc(1);
-                }
-                out
+            .flat_map_iter(|(_, members)| {
+                members
+                    .iter()
+                    .map(|(i, p)| {
+                        let out = work(p);
+                        if let Some(b) = &bar {
+                            b.set_message(p.display().to_string());
+                            b.inc(1);
+                        }
+                        (*i, out)
+                    })
+                    .collect::<Vec<_>>()
             })
             .collect()
     });
     if let Some(b) = bar {
         b.finish_and_clear();
     }
-    Ok(outcomes.into_iter().flatten().collect())
+    outcomes.sort_by_key(|(i, _)| *i);
+    Ok(outcomes.into_iter().flat_map(|(_, o)| o).collect())
 }
 
 /// The batch exit code: the highest of all outcomes (SPEC §13).
@@ -188,7 +211,7 @@ pub fn summary_table(outcomes: &[RunOutcome]) -> String {
     }
     let count = |v: Verdict| outcomes.iter().filter(|o| o.verdict == v).count();
     s.push_str(&format!(
-        "{} recipe run{}: {} criteria met (awaiting review), {} not met, {} not judged, {} invalid\n",
+        "{} result{}: {} criteria met (awaiting review), {} not met, {} not judged, {} invalid\n",
         outcomes.len(),
         if outcomes.len() == 1 { "" } else { "s" },
         count(Verdict::Accepted),

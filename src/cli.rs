@@ -37,7 +37,7 @@ enum Command {
         #[arg(long, value_delimiter = ',')]
         format: Option<Vec<String>>,
         /// Recipes run at once (default: one per core).
-        #[arg(long, value_name = "N")]
+        #[arg(long, short = 'j', value_name = "N")]
         jobs: Option<usize>,
         /// Print the summary as JSON on stdout.
         #[arg(long)]
@@ -56,8 +56,47 @@ enum Command {
         #[arg(long, value_name = "K/N")]
         shard: Option<String>,
         /// No progress bar and no per-recipe details.
-        #[arg(long)]
+        #[arg(long, short = 'q')]
         quiet: bool,
+    },
+    /// Show the linearizability analysis of a recipe's model and the fit plan.
+    Explain {
+        recipe: PathBuf,
+        /// Print the analysis as JSON.
+        #[arg(long)]
+        json: bool,
+    },
+    /// List the built-in model presets with their equations.
+    Models,
+    /// Read values off a stored calibration, with confidence and prediction intervals.
+    Predict {
+        /// A result.json written by `fitwright run`.
+        result: PathBuf,
+        /// Predictor setting(s) NAME=VALUE[,NAME=VALUE]; repeat for several points. With
+        /// --inverse: the other predictors' values.
+        #[arg(long, value_name = "X=V")]
+        at: Vec<String>,
+        /// A measured response RESPONSE=VALUE (the mean of --replicates readings): solve for
+        /// the predictor.
+        #[arg(long, value_name = "Y=V")]
+        inverse: Vec<String>,
+        /// Number of readings averaged in a new measurement (default 1).
+        #[arg(long, default_value_t = 1)]
+        replicates: u32,
+        /// Confidence level of the intervals (default: the recipe's).
+        #[arg(long)]
+        level: Option<f64>,
+        /// Allow settings and readings outside the calibrated range.
+        #[arg(long)]
+        extrapolate: bool,
+        /// Print the predictions as JSON.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Write an HTML index of every result under a folder (DIR/index.html).
+    Index {
+        /// A folder of reports, e.g. reports/
+        dir: PathBuf,
     },
     /// Re-hash a stored result's inputs, re-run it, and say whether it reproduces.
     Verify {
@@ -123,6 +162,21 @@ pub fn main() -> i32 {
             quiet,
         }),
         Command::Verify { result } => verify(&result),
+        Command::Index { dir } => crate::index::write(&dir).map(|(path, n)| {
+            println!("wrote {} ({n} runs)", path.display());
+            0
+        }),
+        Command::Predict {
+            result,
+            at,
+            inverse,
+            replicates,
+            level,
+            extrapolate,
+            json,
+        } => predict(&result, &at, &inverse, replicates, level, extrapolate, json),
+        Command::Explain { recipe, json } => explain(&recipe, json),
+        Command::Models => models(),
         Command::Validate { strd, out } => validate(strd.as_deref(), &out),
         Command::Init { name, preset, data } => init(&name, preset.as_deref(), data.as_deref()),
     };
@@ -150,9 +204,23 @@ fn check(paths: &[PathBuf]) -> Result<i32> {
     let stdout = std::io::stdout();
     for path in &recipes {
         match crate::pipeline::check(path) {
-            Ok(summary) => {
-                let mut out = stdout.lock();
-                let _ = writeln!(out, "ok       {}  {summary}", path.display());
+            Ok(checked) => {
+                let bad = checked.invalid_channels().count() > 0;
+                {
+                    let mut out = stdout.lock();
+                    let status = if bad { "invalid " } else { "ok      " };
+                    let _ = writeln!(out, "{status} {}  {}", path.display(), checked.summary);
+                    for (channel, result) in &checked.channels {
+                        let _ = match result {
+                            Ok(s) => writeln!(out, "           channel {channel}: ok, {s}"),
+                            Err(_) => writeln!(out, "           channel {channel}: invalid"),
+                        };
+                    }
+                }
+                for (_, e) in checked.invalid_channels() {
+                    eprint!("{e}");
+                    worst = worst.max(e.exit_code());
+                }
             }
             Err(e) => {
                 {
@@ -255,7 +323,14 @@ fn run(args: RunArgs) -> Result<i32> {
         quiet: args.quiet || args.json,
         shard,
     };
-    let outcomes = crate::batch::run_all(&recipes, &options, |p| {
+    // Recipes sharing a report folder share a history: they run in order, one at a time.
+    let group = |p: &std::path::Path| match crate::recipe::load(p) {
+        Ok(r) => crate::pipeline::report_dir(&r, &settings)
+            .display()
+            .to_string(),
+        Err(_) => p.display().to_string(),
+    };
+    let outcomes = crate::batch::run_all(&recipes, &options, group, |p| {
         crate::pipeline::run_recipe(p, &settings)
     })?;
     for o in &outcomes {
@@ -290,6 +365,257 @@ fn verify(result: &std::path::Path) -> Result<i32> {
         println!("not verified: {} difference(s)", f.differences.len());
         Ok(1)
     }
+}
+
+/// `fitwright explain`: exit 0 whatever the outcome (its job is to analyse).
+fn explain(path: &std::path::Path, json: bool) -> Result<i32> {
+    let recipe = crate::recipe::load(path)?;
+    let prep = crate::model::prepare(&recipe)?;
+    let analysis = crate::pipeline::solve::analyse(&recipe, &prep)?;
+    if json {
+        let text = serde_json::to_string_pretty(&analysis)
+            .map_err(|e| Error::internal(format!("analysis does not serialize: {e}")))?;
+        println!("{text}");
+        return Ok(0);
+    }
+    print!("{}", crate::analysis::explain_text(&analysis));
+    let mut lines = Vec::new();
+    for cand in analysis.working() {
+        if let Some(lin) = cand.outcome.linearization() {
+            for (cond, rows) in crate::pipeline::solve::violated_conditions(&prep, lin) {
+                lines.push(format!(
+                    "  {} needs {cond}: fails at {}",
+                    cand.transform,
+                    prep.data.describe_rows(&rows, 8)
+                ));
+            }
+        }
+    }
+    println!();
+    println!(
+        "Data ({} rows from {} file(s)):",
+        prep.data.len(),
+        prep.data.files.len()
+    );
+    if lines.is_empty() {
+        println!("  every condition of the working transforms holds on every row");
+    } else {
+        for l in lines {
+            println!("{l}");
+        }
+    }
+    println!();
+    println!(
+        "Plan for `fitwright run` (method = \"{}\"):",
+        recipe.fit.method.name()
+    );
+    let plan = match (&analysis.outcome, recipe.fit.method) {
+        (crate::analysis::Outcome::NotIdentifiable { .. }, _) => {
+            "refused: the model is not identifiable (exit 2)".to_string()
+        }
+        (
+            crate::analysis::Outcome::Linear(_),
+            crate::recipe::Method::Auto | crate::recipe::Method::Linear,
+        ) => "weighted linear least squares (Householder QR), no transform".to_string(),
+        (_, crate::recipe::Method::Nonlinear) => {
+            "Levenberg–Marquardt from the recipe's start values".to_string()
+        }
+        (crate::analysis::Outcome::Linearizable(l), crate::recipe::Method::Linearized) => format!(
+            "linear fit of {} with {} weights, back-transformed",
+            l.transform,
+            if recipe.fit.linearized_delta_weights {
+                "delta-method"
+            } else {
+                "no"
+            }
+        ),
+        (crate::analysis::Outcome::Linearizable(l), _) => format!(
+            "linear fit of {} as the start, then Levenberg–Marquardt in the original space; both are reported",
+            l.transform
+        ),
+        _ => {
+            "Levenberg–Marquardt from the recipe's start values (no transform linearizes the model)"
+                .to_string()
+        }
+    };
+    println!("  {plan}");
+    Ok(0)
+}
+
+/// `fitwright models`.
+fn models() -> Result<i32> {
+    let presets = crate::analysis::presets();
+    let w = presets.iter().map(|p| p.key.len()).max().unwrap_or(10);
+    for p in presets {
+        let params: Vec<String> = p
+            .parameters
+            .iter()
+            .map(|(n, s)| format!("{n} (start {s})"))
+            .collect();
+        println!("{:<w$}  {}", p.key, p.name);
+        println!("{:<w$}  {}", "", p.equation);
+        println!(
+            "{:<w$}  parameters: {}; {}",
+            "",
+            params.join(", "),
+            p.description
+        );
+        println!();
+    }
+    println!(
+        "Use one with `[model] preset = \"KEY\"`; its variables and parameters keep the names shown."
+    );
+    Ok(0)
+}
+
+/// `fitwright predict`.
+fn predict(
+    result: &std::path::Path,
+    at: &[String],
+    inverse: &[String],
+    replicates: u32,
+    level: Option<f64>,
+    extrapolate: bool,
+    json: bool,
+) -> Result<i32> {
+    use crate::predict::{Curve, parse_assignments};
+    use crate::report::format::num;
+    let curve = Curve::load(result)?;
+    let level = level.unwrap_or(curve.doc.fit.confidence);
+    if !(level > 0.0 && level < 1.0) {
+        return Err(
+            Error::usage(format!("--level {level} must lie strictly between 0 and 1"))
+                .help("for example --level 0.95"),
+        );
+    }
+    if replicates == 0 {
+        return Err(
+            Error::usage("--replicates must be at least 1").help("the number of readings averaged")
+        );
+    }
+    if at.is_empty() && inverse.is_empty() {
+        return Err(Error::usage("nothing to predict").help(
+            "give --at X=VALUE for a forward prediction or --inverse Y=VALUE for an inverse one",
+        ));
+    }
+    let unit = |v: &str| {
+        curve
+            .doc
+            .data
+            .units
+            .get(v)
+            .map(|u| format!(" {u}"))
+            .unwrap_or_default()
+    };
+    let mut warnings = curve.warnings();
+    let mut forwards = Vec::new();
+    let mut inverses = Vec::new();
+    if inverse.is_empty() {
+        for a in at {
+            let point = parse_assignments(a, "--at")?;
+            let outside = curve.outside_range(&point);
+            if !outside.is_empty() {
+                if !extrapolate {
+                    return Err(Error::usage(outside.join("; ")).help("readings off a calibration are valid inside its calibrated range; --extrapolate predicts beyond it, at your own risk"));
+                }
+                warnings.extend(outside.into_iter().map(|o| format!("{o} (extrapolated)")));
+            }
+            forwards.push(curve.forward(&point, level, replicates)?);
+        }
+    } else {
+        let given = match at {
+            [] => Vec::new(),
+            [one] => parse_assignments(one, "--at")?,
+            _ => {
+                return Err(
+                    Error::usage("with --inverse, give the other predictors in one --at")
+                        .help("e.g. --at P=1.0,H=40"),
+                );
+            }
+        };
+        for inv in inverse {
+            let a = parse_assignments(inv, "--inverse")?;
+            let [(name, value)] = a.as_slice() else {
+                return Err(
+                    Error::usage(format!("`--inverse {inv}`: give one RESPONSE=VALUE"))
+                        .help("repeat --inverse for several readings"),
+                );
+            };
+            inverses.push(curve.inverse(name, *value, &given, level, replicates, extrapolate)?);
+        }
+    }
+    if json {
+        let v = serde_json::json!({"result": result.display().to_string(), "run_id": curve.doc.run_id, "verdict": curve.doc.verdict, "warnings": warnings, "forward": forwards, "inverse": inverses});
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&v).map_err(|e| Error::internal(e.to_string()))?
+        );
+        return Ok(0);
+    }
+    println!(
+        "calibration {} run {} — {}",
+        curve.doc.recipe.name, curve.doc.run_id, curve.doc.verdict_wording
+    );
+    for w in &warnings {
+        println!("warning: {w}");
+    }
+    let pct = crate::report::format::percent(level, 3);
+    let resp = &curve.doc.model.response;
+    for f in &forwards {
+        let at_text: Vec<String> =
+            f.at.iter()
+                .map(|(k, v)| format!("{k} = {v}{}", unit(k)))
+                .collect();
+        println!(
+            "{}:  {resp} = {}{}",
+            at_text.join(", "),
+            num(f.value),
+            unit(resp)
+        );
+        println!(
+            "    {pct} confidence interval of the curve  [{}, {}]",
+            num(f.confidence.0),
+            num(f.confidence.1)
+        );
+        match f.prediction {
+            Some((lo, hi)) => println!(
+                "    {pct} prediction interval, mean of {} new reading(s)  [{}, {}]",
+                f.replicates,
+                num(lo),
+                num(hi)
+            ),
+            None => println!(
+                "    {}",
+                f.note.as_deref().unwrap_or("no prediction interval")
+            ),
+        }
+    }
+    for i in &inverses {
+        println!(
+            "{resp} = {}{} (mean of {} reading(s)):",
+            i.reading,
+            unit(resp),
+            i.replicates
+        );
+        for (root, iv) in i.roots.iter().zip(&i.intervals) {
+            let band = iv.map_or("not bounded inside the range".to_string(), |(a, b)| {
+                format!("[{}, {}]", num(a), num(b))
+            });
+            println!(
+                "    {} = {}{}   {pct} interval from the prediction band {band}",
+                i.solve_for,
+                num(*root),
+                unit(&i.solve_for)
+            );
+        }
+        if let Some(fl) = &i.fieller {
+            println!("    Fieller's {pct} interval (straight line) {fl}");
+        }
+        for n in &i.notes {
+            println!("    note: {n}");
+        }
+    }
+    Ok(0)
 }
 
 /// `fitwright validate`: exit 0 when every validation criterion is met, else 1.

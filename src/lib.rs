@@ -6,6 +6,7 @@
 #![cfg_attr(not(test), deny(clippy::unwrap_used))]
 
 pub mod acceptance;
+pub mod analysis;
 pub mod batch;
 pub mod cli;
 pub mod data;
@@ -16,16 +17,18 @@ pub mod fit;
 pub mod fsutil;
 pub mod hash;
 pub mod history;
+pub mod index;
 pub mod init;
 pub mod metrology;
 pub mod model;
 pub mod pipeline;
-pub mod presets;
+pub mod predict;
 pub mod recipe;
 pub mod recipes;
 pub mod report;
 pub mod result;
 pub mod source;
+pub mod stats;
 pub mod validate;
 pub mod verify;
 

@@ -114,8 +114,11 @@ fn equation_text(recipe: &Recipe) -> Result<(Text, Option<String>, Vec<Parameter
             "[model] has neither `equation` nor `preset`",
         ));
     };
-    let preset = crate::presets::find(&preset_name.value).ok_or_else(|| {
-        let names: Vec<&str> = crate::presets::all().iter().map(|p| p.key).collect();
+    let preset = crate::analysis::presets::preset(&preset_name.value).ok_or_else(|| {
+        let names: Vec<&str> = crate::analysis::presets::presets()
+            .iter()
+            .map(|p| p.key)
+            .collect();
         let err = recipe.error_at(
             preset_name.span.clone(),
             format!("there is no preset `{}`", preset_name.value),
@@ -135,7 +138,7 @@ fn equation_text(recipe: &Recipe) -> Result<(Text, Option<String>, Vec<Parameter
         .iter()
         .map(|(name, start)| Parameter {
             name: name.to_string(),
-            start: *start,
+            start: Some(*start),
             min: None,
             max: None,
             fixed: None,
@@ -215,6 +218,20 @@ pub fn parse_model(recipe: &Recipe) -> Result<(Model, Text)> {
     }
     for p in &parameters {
         if !eq.rhs.mentions(&p.name) {
+            // A misspelt parameter shows up as an unused declaration plus an unknown name:
+            // point at the misspelling, which is what the user must fix.
+            let typo = eq.rhs.identifiers().into_iter().find(|(n, _)| {
+                predictors.contains(n) && crate::error::closest(n, [p.name.as_str()]).is_some()
+            });
+            if let Some((name, at)) = typo {
+                let span = text.inner_span(at.start..at.end);
+                return Err(recipe
+                    .error_at(span, format!("unknown name `{name}` in the equation"))
+                    .help(format!(
+                        "did you mean `{}`? it is declared in [model.parameters] but not used (names are case-sensitive)",
+                        p.name
+                    )));
+            }
             let span = recipe
                 .model
                 .parameters
@@ -244,8 +261,60 @@ pub fn parse_model(recipe: &Recipe) -> Result<(Model, Text)> {
     Ok((model, text))
 }
 
+/// What [`prepare`] needs before the data are read: the model, the parsed filter and weights,
+/// and the columns to load.
+struct Plan<'r> {
+    model: Model,
+    eq_text: Text,
+    filter: Option<(&'r Text, Expr)>,
+    weights: Option<(&'r Text, Expr)>,
+    wanted: Vec<Wanted>,
+}
+
 /// Parse the model, load the data it needs, filter the rows and evaluate the weights.
 pub fn prepare(recipe: &Recipe) -> Result<Prepared> {
+    let plan = plan(recipe)?;
+    let ds = data::load(recipe, &plan.wanted)?;
+    finish(recipe, &plan, ds)
+}
+
+/// The channels of a recipe with `[data] by`, prepared one by one.
+#[derive(Debug, Clone)]
+pub struct ChannelSet {
+    /// Every file read (with its hash), whatever channel its rows belong to.
+    pub files: Vec<data::LoadedFile>,
+    /// Each channel in natural order of its `by` value, prepared or with its own error.
+    pub channels: Vec<(String, Result<Prepared>)>,
+}
+
+/// [`prepare`] for a recipe with `[data] by`: the data are read once, leniently, and split
+/// into channels ([`data::split_by`]); each channel is prepared on its own, so a channel with
+/// bad cells, or too few rows after the filter, is an error for that channel only (with a
+/// note naming the channel). Errors that concern every channel (the recipe, the model, a
+/// file, a missing column) are returned as the outer error.
+pub fn prepare_channels(recipe: &Recipe) -> Result<ChannelSet> {
+    let plan = plan(recipe)?;
+    let ds = data::load_lenient(recipe, &plan.wanted)?;
+    check_variables(recipe, &plan, &ds)?;
+    let channels = data::split_by(&ds)
+        .into_iter()
+        .map(|c| {
+            let prepared = c.data.and_then(|d| finish(recipe, &plan, d)).map_err(|e| {
+                e.note(format!(
+                    "in channel `{}` of `by`; the other channels are not affected",
+                    c.value
+                ))
+            });
+            (c.value, prepared)
+        })
+        .collect();
+    Ok(ChannelSet {
+        files: ds.files,
+        channels,
+    })
+}
+
+fn plan(recipe: &Recipe) -> Result<Plan<'_>> {
     let (model, eq_text) = parse_model(recipe)?;
     let filter = match &recipe.data.where_ {
         Some(t) => Some((
@@ -287,11 +356,20 @@ pub fn prepare(recipe: &Recipe) -> Result<Prepared> {
             want(&name, true, &mut wanted);
         }
     }
-    if let Some(g) = &recipe.fit.groups {
-        want(&g.value, true, &mut wanted);
-    }
-    let mut ds = data::load(recipe, &wanted)?;
-    let columns_list = || ds_columns_hint(recipe, &ds_variables(&wanted));
+    // `[fit] groups` and `[data] by` are read by the data layer as labels (text allowed).
+    Ok(Plan {
+        model,
+        eq_text,
+        filter,
+        weights,
+        wanted,
+    })
+}
+
+/// Every model variable must have been found in the data.
+fn check_variables(recipe: &Recipe, plan: &Plan<'_>, ds: &Dataset) -> Result<()> {
+    let (model, eq_text, wanted) = (&plan.model, &plan.eq_text, &plan.wanted);
+    let columns_list = || ds_columns_hint(recipe, &ds_variables(wanted));
     // Every model variable must have been found.
     let params: Vec<&str> = model.parameters.iter().map(|p| p.name.as_str()).collect();
     for (name, span) in std::iter::once((model.response.clone(), None))
@@ -333,6 +411,13 @@ pub fn prepare(recipe: &Recipe) -> Result<Prepared> {
             return Err(err.help(help));
         }
     }
+    Ok(())
+}
+
+/// Filter the rows, evaluate the weights and check the row count.
+fn finish(recipe: &Recipe, plan: &Plan<'_>, mut ds: Dataset) -> Result<Prepared> {
+    check_variables(recipe, plan, &ds)?;
+    let (model, filter, weights) = (plan.model.clone(), &plan.filter, &plan.weights);
     let rows_read = ds.len();
     let mut warnings = Vec::new();
     // The filter.

@@ -1,19 +1,33 @@
-//! Reading delimited text (csv, tsv, whitespace) into numeric columns.
+//! Files → numeric columns.
 //!
-//! Each file is read once: bytes → SHA-256 → text (UTF-8, BOM removed) → records. Lines before
-//! the header (`skip_rows`) and comment lines are blanked in place so that line numbers in
-//! messages stay those of the file. Quoted fields follow RFC 4180 (via the `csv` crate).
+//! Each file is read once: bytes → SHA-256 (checked against a pinned hash) → a [`Grid`] (text
+//! decoded and split by [`super::text`], or a workbook sheet read by [`super::sheet`]) → the
+//! wanted columns as numbers, the `by` and `groups` columns as labels, the units row as units.
+//!
+//! A bad cell normally stops the load at once. In lenient mode (recipes with `by`, where one
+//! channel must not stop the others) the row is set aside with its error and its channel, and
+//! reading goes on; only errors about a whole file still stop it.
 
-use std::path::Path;
+use std::collections::BTreeMap;
+use std::ops::Range;
+use std::path::{Path, PathBuf};
 
 use super::files::MatchedFile;
-use super::{Dataset, LoadedFile, RowOrigin, SkippedRow, Wanted};
+use super::grid::{Cell, Grid, GridRow, Place, RowAt};
+use super::number::{NumberFormat, Parsed, bad_number_help, number_label, parse_number};
+use super::{Dataset, LoadedFile, RejectedRow, RowOrigin, SkippedRow, Wanted};
 use crate::error::{Error, Result, did_you_mean};
+use crate::recipe::check::misplaced_key_help;
 use crate::recipe::{ColumnRef, Format, Missing, Recipe};
-use crate::source::locate_in;
 
 /// Read every matched file and concatenate the wanted columns.
-pub fn read_all(recipe: &Recipe, files: &[MatchedFile], wanted: &[Wanted]) -> Result<Dataset> {
+pub fn read_all(
+    recipe: &Recipe,
+    files: &[MatchedFile],
+    wanted: &[Wanted],
+    lenient: bool,
+) -> Result<Dataset> {
+    let spec = &recipe.data;
     let mut ds = Dataset {
         variables: Vec::new(),
         headers: Vec::new(),
@@ -21,9 +35,13 @@ pub fn read_all(recipe: &Recipe, files: &[MatchedFile], wanted: &[Wanted]) -> Re
         origins: Vec::new(),
         files: Vec::new(),
         skipped: Vec::new(),
+        file_units: BTreeMap::new(),
+        channels: spec.by.as_ref().map(|_| Vec::new()),
+        groups: recipe.fit.groups.as_ref().map(|_| Vec::new()),
+        rejected: Vec::new(),
     };
-    let mut first_header: Option<(Vec<String>, std::path::PathBuf)> = None;
-    let mut present: Option<Vec<bool>> = None;
+    let mut first: Option<(PathBuf, Vec<bool>)> = None;
+    let mut units: Vec<Option<String>> = Vec::new();
     for (fi, file) in files.iter().enumerate() {
         let bytes = std::fs::read(&file.path).map_err(|e| {
             Error::input(format!("cannot read data file: {e}"))
@@ -40,25 +58,56 @@ pub fn read_all(recipe: &Recipe, files: &[MatchedFile], wanted: &[Wanted]) -> Re
                 .note(format!("found  {sha256}"))
                 .help("the file changed since it was pinned: restore it, or update `sha256` after review"));
         }
-        let text = decode(&bytes, &file.path)?;
-        let parsed = read_file(recipe, &file.path, &text, wanted)?;
-        if first_header.is_none() {
-            first_header = Some((parsed.header.clone(), file.path.clone()));
-            ds.variables = parsed.variables.clone();
-            ds.headers = parsed.header_names.clone();
-            ds.columns = vec![Vec::new(); parsed.variables.len()];
-            present = Some(parsed.present.clone());
-        } else if present.as_ref() != Some(&parsed.present) {
-            return Err(Error::input(format!(
-                "data file `{}` does not have the same columns as `{}`",
-                file.path.display(),
-                first_header
-                    .as_ref()
-                    .map(|h| h.1.display().to_string())
-                    .unwrap_or_default()
-            ))
-            .in_file(&file.path)
-            .help("every file matched by [data] files must have the same columns"));
+        let format = spec
+            .format
+            .unwrap_or_else(|| Format::from_extension(&file.path));
+        check_keys_apply(recipe, &file.path, format)?;
+        let grid = if format.is_spreadsheet() {
+            super::sheet::read_sheet(recipe, &file.path, &bytes, format)?
+        } else {
+            let text =
+                super::decode::decode(&bytes, &file.path, spec.encoding.as_ref().map(|e| e.value))?;
+            super::text::read_text(spec, &file.path, text, format)?
+        };
+        let parsed = extract(recipe, &grid, wanted, lenient)?;
+        match &first {
+            None => {
+                first = Some((file.path.clone(), parsed.present.clone()));
+                ds.variables = parsed.variables.clone();
+                ds.headers = parsed.header_names.clone();
+                ds.columns = vec![Vec::new(); parsed.variables.len()];
+                units = parsed.units.clone();
+            }
+            Some((first_path, present)) => {
+                if *present != parsed.present {
+                    return Err(Error::input(format!(
+                        "data file `{}` does not have the same columns as `{}`",
+                        file.path.display(),
+                        first_path.display()
+                    ))
+                    .in_file(&file.path)
+                    .help("every file matched by [data] files must have the same columns"));
+                }
+                for (k, (have, new)) in units.iter_mut().zip(&parsed.units).enumerate() {
+                    match (have.as_deref(), new.as_deref()) {
+                        (Some(a), Some(b)) if a != b => {
+                            let column = ds.headers.get(k).cloned().unwrap_or_default();
+                            let col = parsed.cols_idx.get(k).copied().unwrap_or(0);
+                            return Err(grid.place.locate(
+                                RowAt::Units,
+                                col,
+                                Error::input(format!(
+                                    "the units row gives `{column}` in {b}, but `{}` gives {a}",
+                                    first_path.display()
+                                ))
+                                .help("files read together must use the same units; convert one export or read them with separate recipes"),
+                            ));
+                        }
+                        (None, Some(_)) => *have = new.clone(),
+                        _ => {}
+                    }
+                }
+            }
         }
         for (col, values) in ds.columns.iter_mut().zip(parsed.columns) {
             col.extend(values);
@@ -69,425 +118,581 @@ pub fn read_all(recipe: &Recipe, files: &[MatchedFile], wanted: &[Wanted]) -> Re
                 .iter()
                 .map(|&line| RowOrigin { file: fi, line }),
         );
+        if let (Some(all), Some(these)) = (ds.channels.as_mut(), parsed.channels) {
+            all.extend(these);
+        }
+        if let (Some(all), Some(these)) = (ds.groups.as_mut(), parsed.groups) {
+            all.extend(these);
+        }
         ds.skipped.extend(parsed.skipped);
+        ds.rejected.extend(
+            parsed
+                .rejected
+                .into_iter()
+                .map(|(line, channel, error)| RejectedRow {
+                    file: fi,
+                    line,
+                    channel,
+                    error,
+                }),
+        );
         ds.files.push(LoadedFile {
             path: file.path.clone(),
             sha256,
             rows: parsed.lines.len(),
+            sheet: grid.place.sheet().map(str::to_string),
         });
     }
+    ds.file_units = ds
+        .variables
+        .iter()
+        .zip(units)
+        .filter_map(|(v, u)| u.map(|u| (v.clone(), u)))
+        .collect();
     Ok(ds)
 }
 
-/// Decode file bytes as UTF-8, removing a byte-order mark.
-fn decode(bytes: &[u8], path: &Path) -> Result<String> {
-    let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
-    match std::str::from_utf8(body) {
-        Ok(t) => Ok(t.to_string()),
-        Err(e) => {
-            let lossy = String::from_utf8_lossy(body);
-            let at = e.valid_up_to();
-            let loc = locate_in(path, &lossy, at..at + 1);
-            Err(Error::input("the data file is not valid UTF-8 text")
-                .at(loc)
-                .help("save the file as UTF-8 (old exports in Windows-1252 show ° and Ω as single bytes)"))
-        }
+/// Keys for the other kind of file are an error at the key, naming the file.
+fn check_keys_apply(recipe: &Recipe, path: &Path, format: Format) -> Result<()> {
+    let spec = &recipe.data;
+    let (misplaced, kind) = if format.is_spreadsheet() {
+        (spec.text_only_keys(), "a workbook")
+    } else {
+        (spec.sheet_only_keys(), "a text file")
+    };
+    if let Some(key) = misplaced.first()
+        && let Some(span) = spec.key_span(key)
+    {
+        return Err(recipe
+            .error_at(
+                span,
+                format!("`{key}` does not apply to `{}`, {kind}", path.display()),
+            )
+            .help(misplaced_key_help(key)));
     }
+    if format == Format::Whitespace
+        && spec.thousands == Some(' ')
+        && let Some(span) = spec.key_span("thousands")
+    {
+        return Err(recipe
+            .error_at(
+                span,
+                format!(
+                    "`thousands = \" \"` cannot be used for `{}`: its fields are separated by spaces",
+                    path.display()
+                ),
+            )
+            .help("set `format = \"csv\"` with the file's `delimiter`, or remove `thousands`"));
+    }
+    Ok(())
 }
 
 struct ParsedFile {
-    header: Vec<String>,
     header_names: Vec<String>,
+    /// Grid column of each variable.
+    cols_idx: Vec<usize>,
     variables: Vec<String>,
     present: Vec<bool>,
+    /// Units from the units row, one per variable.
+    units: Vec<Option<String>>,
     columns: Vec<Vec<f64>>,
     lines: Vec<usize>,
+    channels: Option<Vec<String>>,
+    groups: Option<Vec<String>>,
     skipped: Vec<SkippedRow>,
+    /// (line, channel, error) of rows set aside in lenient mode.
+    rejected: Vec<(usize, Option<String>, Error)>,
 }
 
-/// A record: its 1-based line, byte offset of its start, and its fields.
-struct Record {
-    line: usize,
-    offset: usize,
-    fields: Vec<String>,
-}
-
-fn blank_lines(text: &str, skip_rows: usize, comment: Option<&str>) -> String {
-    let mut out = String::with_capacity(text.len());
-    for (i, line) in text.split_inclusive('\n').enumerate() {
-        let skip = i < skip_rows || comment.is_some_and(|c| line.trim_start().starts_with(c));
-        if skip {
-            // Keep byte offsets: replace the content by spaces, keep the line ending.
-            let content = line.trim_end_matches(['\n', '\r']);
-            out.extend(std::iter::repeat_n(' ', content.len()));
-            out.push_str(&line[content.len()..]);
-        } else {
-            out.push_str(line);
-        }
-    }
-    out
-}
-
-fn records(text: &str, format: Format, delimiter: u8, path: &Path) -> Result<Vec<Record>> {
-    let mut out = Vec::new();
-    match format {
-        Format::Whitespace => {
-            let mut offset = 0;
-            for (i, line) in text.split_inclusive('\n').enumerate() {
-                let fields: Vec<String> = line.split_whitespace().map(str::to_string).collect();
-                if !fields.is_empty() {
-                    out.push(Record {
-                        line: i + 1,
-                        offset,
-                        fields,
-                    });
-                }
-                offset += line.len();
-            }
-        }
-        Format::Csv | Format::Tsv => {
-            let mut reader = csv::ReaderBuilder::new()
-                .has_headers(false)
-                .flexible(true)
-                .delimiter(delimiter)
-                .from_reader(text.as_bytes());
-            let mut rec = csv::StringRecord::new();
-            loop {
-                match reader.read_record(&mut rec) {
-                    Ok(false) => break,
-                    Ok(true) => {
-                        if rec.iter().all(|f| f.trim().is_empty()) {
-                            continue;
-                        }
-                        let pos = rec
-                            .position()
-                            .map_or((0, 0), |p| (p.line() as usize, p.byte() as usize));
-                        out.push(Record {
-                            line: pos.0,
-                            offset: pos.1,
-                            fields: rec.iter().map(str::to_string).collect(),
-                        });
-                    }
-                    Err(e) => {
-                        let (line, offset) = e
-                            .position()
-                            .map_or((0, 0), |p| (p.line() as usize, p.byte() as usize));
-                        let mut err = Error::input(format!(
-                            "the data file cannot be read as delimited text: {e}"
-                        ));
-                        err = if line > 0 {
-                            err.at(locate_in(path, text, offset..offset + 1))
-                        } else {
-                            err.in_file(path)
-                        };
-                        return Err(err.help("check the quoting on this line (a field that opens a quote must close it)"));
-                    }
-                }
-            }
-        }
-    }
-    Ok(out)
-}
-
-/// Byte offset (within the line starting at `offset`) of field `index`, for carets.
-fn field_offset(
-    text: &str,
-    offset: usize,
-    format: Format,
-    delimiter: u8,
-    index: usize,
-) -> (usize, usize) {
-    let line = text.get(offset..).unwrap_or("");
-    let line = &line[..line.find('\n').unwrap_or(line.len())];
-    let line = line.trim_end_matches('\r');
-    let mut spans = Vec::new();
-    match format {
-        Format::Whitespace => {
-            let mut start = None;
-            for (i, c) in line.char_indices() {
-                match (c.is_whitespace(), start) {
-                    (false, None) => start = Some(i),
-                    (true, Some(s)) => {
-                        spans.push((s, i));
-                        start = None;
-                    }
-                    _ => {}
-                }
-            }
-            if let Some(s) = start {
-                spans.push((s, line.len()));
-            }
-        }
-        _ => {
-            let d = delimiter as char;
-            let mut start = 0;
-            let mut quoted = false;
-            for (i, c) in line.char_indices() {
-                if c == '"' {
-                    quoted = !quoted;
-                } else if c == d && !quoted {
-                    spans.push((start, i));
-                    start = i + 1;
-                }
-            }
-            spans.push((start, line.len()));
-        }
-    }
-    match spans.get(index) {
-        Some(&(s, e)) => {
-            let cell = &line[s..e];
-            let lead = cell.len() - cell.trim_start().len();
-            let width = cell.trim().len().max(1);
-            (offset + s + lead, width)
-        }
-        None => (offset + line.len(), 1),
-    }
-}
-
-enum Cell {
-    Value(f64),
+/// What is wrong with one cell.
+enum Problem {
     Missing(&'static str),
-    Bad,
+    Bad { message: String, help: String },
 }
 
-fn parse_cell(raw: &str, decimal_comma: bool) -> Cell {
-    let t = raw.trim();
-    if t.is_empty() {
-        return Cell::Missing("empty cell");
-    }
-    let owned;
-    let s = if decimal_comma {
-        if t.contains('.') {
-            return Cell::Bad;
-        }
-        owned = t.replace(',', ".");
-        owned.as_str()
-    } else {
-        t
-    };
-    match s.parse::<f64>() {
-        Ok(v) if v.is_nan() => Cell::Missing("NaN"),
-        Ok(v) if v.is_infinite() => Cell::Missing("infinite value"),
-        Ok(v) => Cell::Value(v),
-        Err(_) => Cell::Bad,
-    }
+/// A column read as labels (`by`, `groups`).
+struct LabelColumn {
+    key: &'static str,
+    index: usize,
+    /// Numbers written in different ways (`20`, `20.0`) name the same label.
+    numeric_labels: bool,
 }
 
-fn read_file(
-    recipe: &Recipe,
-    path: &Path,
-    original: &str,
-    wanted: &[Wanted],
-) -> Result<ParsedFile> {
+/// Choose the wanted columns of a grid and read its rows.
+fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Result<ParsedFile> {
     let spec = &recipe.data;
-    let format = spec.format.unwrap_or_else(|| Format::from_extension(path));
-    let delimiter = spec.delimiter.unwrap_or(match format {
-        Format::Tsv => b'\t',
-        _ if spec.decimal_comma => b';',
-        _ => b',',
-    });
-    let text = blank_lines(original, spec.skip_rows, spec.comment.as_deref());
-    let recs = records(&text, format, delimiter, path)?;
-    let at = |offset: usize, width: usize| locate_in(path, original, offset..offset + width);
-    let Some(first_rec) = recs.first() else {
-        return Err(Error::input("the data file has no rows")
-            .in_file(path)
-            .help(if spec.skip_rows > 0 || spec.comment.is_some() {
-                "the file is empty after `skip_rows` and comment lines; check both settings"
-            } else {
-                "check that this is the right file; it is empty"
-            }));
-    };
-    let (header, data_recs): (Vec<String>, &[Record]) = if spec.header {
-        let names: Vec<String> = first_rec
-            .fields
-            .iter()
-            .map(|f| f.trim().to_string())
-            .collect();
-        for (i, n) in names.iter().enumerate() {
-            if let Some(j) = names[..i].iter().position(|m| m == n) {
-                let (o, w) = field_offset(&text, first_rec.offset, format, delimiter, i);
-                return Err(Error::input(format!(
+    let place = &grid.place;
+    let path = place.path();
+    let header: &[String] = grid.header.as_deref().unwrap_or(&[]);
+    for (i, n) in header.iter().enumerate() {
+        if n.is_empty() {
+            continue;
+        }
+        if let Some(j) = header[..i].iter().position(|m| m == n) {
+            return Err(place.locate(
+                RowAt::Header,
+                i,
+                Error::input(format!(
                     "the header names column `{n}` twice (columns {} and {})",
                     j + 1,
                     i + 1
                 ))
-                .at(at(o, w))
-                .help("rename one of the columns so that every header name is unique"));
-            }
+                .help("rename one of the columns so that every header name is unique"),
+            ));
         }
-        (names, recs.get(1..).unwrap_or(&[]))
-    } else {
-        (Vec::new(), &recs[..])
-    };
-    if data_recs.is_empty() {
-        return Err(Error::input(if spec.header {
-            "the data file has a header but no data rows"
-        } else {
-            "the data file has no data rows"
-        })
-        .in_file(path)
-        .help("check that this is the right file and that `skip_rows` and `header` are right"));
     }
-    // Resolve wanted columns to field indices.
-    let width = if spec.header {
+    if grid.rows.is_empty() {
+        let what = match place.sheet() {
+            Some(s) => format!("sheet \"{s}\" has a header but no data rows"),
+            None => "the data file has a header but no data rows".to_string(),
+        };
+        return Err(Error::input(what).in_file(path).help(
+            "check that this is the right file and that `skip_rows`, `header_after` and `header` are right",
+        ));
+    }
+    let width = if grid.header.is_some() {
         header.len()
     } else {
-        data_recs.iter().map(|r| r.fields.len()).max().unwrap_or(0)
+        grid.rows.iter().map(|r| r.cells.len()).max().unwrap_or(0)
     };
     let mut indices: Vec<Option<usize>> = Vec::new();
     for w in wanted {
-        let idx = match &w.column {
-            ColumnRef::Index(i) => {
-                if *i > width {
-                    if w.optional {
-                        None
-                    } else {
-                        let mut err = Error::input(format!(
-                            "column {i} for `{}` does not exist: `{}` has {width} column{}",
-                            w.variable,
-                            path.display(),
-                            if width == 1 { "" } else { "s" }
-                        ));
-                        err = match &w.span {
-                            Some(s) => err.at(recipe.locate(s.clone())),
-                            None => err.in_file(path),
-                        };
-                        return Err(err.help(
-                            "column positions count from 1; check the delimiter and `format` too",
-                        ));
-                    }
-                } else {
-                    Some(i - 1)
-                }
-            }
-            ColumnRef::Name(n) => match header.iter().position(|h| h == n) {
-                Some(i) => Some(i),
-                None if w.optional => None,
-                None => {
-                    let mut err = Error::input(format!(
-                        "column `{n}` for `{}` is not in the header of `{}`",
-                        w.variable,
-                        path.display()
-                    ));
-                    err = match &w.span {
-                        Some(s) => err.at(recipe.locate(s.clone())),
-                        None => err.in_file(path),
-                    };
-                    let hint = match did_you_mean(n, header.iter().map(String::as_str)) {
-                        Some(s) => format!("{s} (column names are case-sensitive)"),
-                        None => {
-                            let list = header
-                                .iter()
-                                .map(|h| format!("`{h}`"))
-                                .collect::<Vec<_>>()
-                                .join(", ");
-                            if header.len() == 1
-                                && (header[0].contains(';') || header[0].contains('\t'))
-                            {
-                                format!(
-                                    "the header is {list}: set `delimiter` in [data] to the file's separator"
-                                )
-                            } else {
-                                format!("the header has {list}")
-                            }
-                        }
-                    };
-                    return Err(err.help(hint));
-                }
-            },
-        };
-        indices.push(idx);
+        let idx = find_column(
+            recipe,
+            path,
+            header,
+            width,
+            &w.column,
+            &w.variable,
+            w.span.clone(),
+        );
+        indices.push(match idx {
+            Ok(i) => Some(i),
+            Err(_) if w.optional => None,
+            Err(e) => return Err(e),
+        });
     }
+    let by = match &spec.by {
+        Some(b) => Some(LabelColumn {
+            key: "by",
+            index: find_column(
+                recipe,
+                path,
+                header,
+                width,
+                &b.value,
+                "by",
+                Some(b.span.clone()),
+            )?,
+            numeric_labels: false,
+        }),
+        None => None,
+    };
+    let groups = match &recipe.fit.groups {
+        Some(g) => {
+            // A model variable names its mapped column; anything else is a header name.
+            let column = spec
+                .columns
+                .iter()
+                .find(|(v, _)| v.value == g.value)
+                .map_or_else(
+                    || ColumnRef::Name(g.value.clone()),
+                    |(_, c)| c.value.clone(),
+                );
+            if grid.header.is_none() && matches!(column, ColumnRef::Name(_)) {
+                return Err(recipe
+                    .error_at(
+                        g.span.clone(),
+                        format!(
+                            "`groups = \"{}\"` names a header column, but `header = false`",
+                            g.value
+                        ),
+                    )
+                    .help("without a header row, name a variable mapped in [data] columns"));
+            }
+            Some(LabelColumn {
+                key: "groups",
+                index: find_column(
+                    recipe,
+                    path,
+                    header,
+                    width,
+                    &column,
+                    "groups",
+                    Some(g.span.clone()),
+                )?,
+                numeric_labels: true,
+            })
+        }
+        None => None,
+    };
     let present: Vec<bool> = indices.iter().map(Option::is_some).collect();
     let mut variables = Vec::new();
     let mut header_names = Vec::new();
     let mut cols_idx = Vec::new();
+    let mut units = Vec::new();
     for (w, idx) in wanted.iter().zip(&indices) {
         if let Some(i) = idx {
             variables.push(w.variable.clone());
             header_names.push(
                 header
                     .get(*i)
+                    .filter(|h| !h.is_empty())
                     .cloned()
                     .unwrap_or_else(|| format!("column {}", i + 1)),
             );
             cols_idx.push(*i);
+            units.push(
+                grid.units
+                    .as_ref()
+                    .and_then(|u| u.get(*i))
+                    .map(|u| unit_text(u))
+                    .filter(|u| !u.is_empty()),
+            );
         }
     }
-    let mut columns: Vec<Vec<f64>> = vec![Vec::with_capacity(data_recs.len()); cols_idx.len()];
-    let mut lines = Vec::with_capacity(data_recs.len());
+    let fmt = NumberFormat {
+        decimal_comma: spec.decimal_comma,
+        thousands: spec.thousands,
+    };
+    let is_sheet = place.sheet().is_some();
+    let n = grid.rows.len();
+    let mut columns: Vec<Vec<f64>> = vec![Vec::with_capacity(n); cols_idx.len()];
+    let mut lines = Vec::with_capacity(n);
+    let mut channels = by.as_ref().map(|_| Vec::with_capacity(n));
+    let mut group_labels = groups.as_ref().map(|_| Vec::with_capacity(n));
     let mut skipped = Vec::new();
+    let mut rejected = Vec::new();
     let mut row_values = vec![0.0; cols_idx.len()];
-    'rows: for rec in data_recs {
+    let skip = |row: &GridRow, column: &str, reason: &str, channel: Option<&String>| SkippedRow {
+        file: path.to_path_buf(),
+        line: row.number,
+        column: column.to_string(),
+        reason: reason.to_string(),
+        channel: channel.cloned(),
+    };
+    'rows: for row in &grid.rows {
+        // The channel first: a bad cell is reported under its channel.
+        let channel = match &by {
+            None => None,
+            Some(b) => match label_cell(grid, row, b, fmt) {
+                Ok(l) => Some(l),
+                Err(Problem::Missing(reason)) if spec.missing == Missing::Skip => {
+                    skipped.push(skip(row, &column_name(header, b.index), reason, None));
+                    continue 'rows;
+                }
+                Err(p) => {
+                    // Without a channel the row belongs to no fit: an error for the file.
+                    return Err(problem_error(
+                        place,
+                        row,
+                        b.index,
+                        &column_name(header, b.index),
+                        p,
+                        true,
+                    ));
+                }
+            },
+        };
+        let mut fail = |err: Error| -> Result<()> {
+            if lenient {
+                rejected.push((row.number, channel.clone(), err));
+                Ok(())
+            } else {
+                Err(err)
+            }
+        };
+        let group = match &groups {
+            None => None,
+            Some(g) => match label_cell(grid, row, g, fmt) {
+                Ok(l) => Some(l),
+                Err(Problem::Missing(reason)) if spec.missing == Missing::Skip => {
+                    skipped.push(skip(
+                        row,
+                        &column_name(header, g.index),
+                        reason,
+                        channel.as_ref(),
+                    ));
+                    continue 'rows;
+                }
+                Err(p) => {
+                    fail(problem_error(
+                        place,
+                        row,
+                        g.index,
+                        &column_name(header, g.index),
+                        p,
+                        false,
+                    ))?;
+                    continue 'rows;
+                }
+            },
+        };
         for (k, &ci) in cols_idx.iter().enumerate() {
-            let Some(raw) = rec.fields.get(ci) else {
-                let (o, _) = field_offset(&text, rec.offset, format, delimiter, rec.fields.len());
-                return Err(Error::input(format!(
-                    "line {} has {} field{} but `{}` is column {}",
-                    rec.line,
-                    rec.fields.len(),
-                    if rec.fields.len() == 1 { "" } else { "s" },
-                    header_names[k],
-                    ci + 1
-                ))
-                .at(at(o, 1))
-                .help("a row is short: check for a missing value or a wrong delimiter"));
-            };
-            match parse_cell(raw, spec.decimal_comma) {
-                Cell::Value(v) => row_values[k] = v,
-                Cell::Missing(reason) => {
-                    if spec.missing == Missing::Skip {
-                        skipped.push(SkippedRow {
-                            file: path.to_path_buf(),
-                            line: rec.line,
-                            column: header_names[k].clone(),
-                            reason: reason.to_string(),
-                        });
+            let name = header_names.get(k).map_or("", String::as_str);
+            let cell =
+                match row.cells.get(ci) {
+                    Some(c) => c,
+                    None if is_sheet => &Cell::Empty,
+                    None => {
+                        let count = row.cells.len();
+                        fail(place.locate(
+                        RowAt::Data(row),
+                        count,
+                        Error::input(format!(
+                            "line {} has {count} field{} but `{name}` is column {}",
+                            row.number,
+                            if count == 1 { "" } else { "s" },
+                            ci + 1
+                        ))
+                        .help("a row is short: check for a missing value or a wrong delimiter"),
+                    ))?;
                         continue 'rows;
                     }
-                    let (o, w) = field_offset(&text, rec.offset, format, delimiter, ci);
-                    return Err(Error::input(format!("{reason} in column `{}`", header_names[k]))
-                        .at(at(o, w))
-                        .help("fill in the value, remove the row, or set `missing = \"skip\"` in [data] to skip such rows"));
+                };
+            match number_cell(cell, is_sheet, fmt, name) {
+                Ok(v) => {
+                    if let Some(slot) = row_values.get_mut(k) {
+                        *slot = v;
+                    }
                 }
-                Cell::Bad => {
-                    let (o, w) = field_offset(&text, rec.offset, format, delimiter, ci);
-                    let t = raw.trim();
-                    let help = if spec.decimal_comma && t.contains('.') {
-                        "with `decimal = \",\"` a \".\" is not allowed in a number; check the file's number format".to_string()
-                    } else if !spec.decimal_comma
-                        && t.contains(',')
-                        && t.replace(',', ".").parse::<f64>().is_ok()
-                    {
-                        "the file seems to use a decimal comma: set `decimal = \",\"` in [data] (the delimiter is then \";\" unless set)".to_string()
-                    } else {
-                        format!(
-                            "column `{}` must hold numbers only; fix or remove this cell",
-                            header_names[k]
-                        )
-                    };
-                    return Err(Error::input(format!(
-                        "`{t}` in column `{}` is not a number",
-                        header_names[k]
-                    ))
-                    .at(at(o, w))
-                    .help(help));
+                Err(Problem::Missing(reason)) if spec.missing == Missing::Skip => {
+                    skipped.push(skip(row, name, reason, channel.as_ref()));
+                    continue 'rows;
+                }
+                Err(p) => {
+                    fail(problem_error(place, row, ci, name, p, false))?;
+                    continue 'rows;
                 }
             }
         }
         for (col, v) in columns.iter_mut().zip(&row_values) {
             col.push(*v);
         }
-        lines.push(rec.line);
+        lines.push(row.number);
+        if let (Some(all), Some(c)) = (channels.as_mut(), channel) {
+            all.push(c);
+        }
+        if let (Some(all), Some(g)) = (group_labels.as_mut(), group) {
+            all.push(g);
+        }
     }
     Ok(ParsedFile {
-        header,
         header_names,
+        cols_idx,
         variables,
         present,
+        units,
         columns,
         lines,
+        channels,
+        groups: group_labels,
         skipped,
+        rejected,
     })
+}
+
+fn column_name(header: &[String], index: usize) -> String {
+    header
+        .get(index)
+        .filter(|h| !h.is_empty())
+        .cloned()
+        .unwrap_or_else(|| format!("column {}", index + 1))
+}
+
+/// A unit as written in a units row, without one pair of surrounding brackets: `[°C]`,
+/// `(Ω)` and `°C` all give `°C`.
+fn unit_text(raw: &str) -> String {
+    let t = raw.trim();
+    for (open, close) in [('[', ']'), ('(', ')')] {
+        if let Some(inner) = t.strip_prefix(open).and_then(|r| r.strip_suffix(close)) {
+            return inner.trim().to_string();
+        }
+    }
+    t.to_string()
+}
+
+/// The error for a cell problem, at the cell.
+fn problem_error(
+    place: &Place,
+    row: &GridRow,
+    col: usize,
+    name: &str,
+    p: Problem,
+    label: bool,
+) -> Error {
+    let err = match p {
+        Problem::Missing(reason) => Error::input(format!("{reason} in column `{name}`")).help(if label {
+            "every row needs a value in this column: fill it in, remove the row, or set `missing = \"skip\"` in [data] to skip such rows"
+        } else {
+            "fill in the value, remove the row, or set `missing = \"skip\"` in [data] to skip such rows"
+        }),
+        Problem::Bad { message, help } => Error::input(message).help(help),
+    };
+    place.locate(RowAt::Data(row), col, err)
+}
+
+/// A numeric cell.
+fn number_cell(cell: &Cell, is_sheet: bool, fmt: NumberFormat, name: &str) -> Result<f64, Problem> {
+    match cell {
+        Cell::Number(v) if v.is_nan() => Err(Problem::Missing("NaN")),
+        Cell::Number(v) if v.is_infinite() => Err(Problem::Missing("infinite value")),
+        Cell::Number(v) => Ok(*v),
+        Cell::Empty => Err(Problem::Missing("empty cell")),
+        Cell::Text(t) if is_sheet => {
+            if t.trim().is_empty() {
+                return Err(Problem::Missing("empty cell"));
+            }
+            let looks_numeric = [false, true].iter().any(|&decimal_comma| {
+                matches!(
+                    parse_number(
+                        t,
+                        NumberFormat {
+                            decimal_comma,
+                            thousands: None
+                        }
+                    ),
+                    Parsed::Value(_)
+                )
+            });
+            Err(Problem::Bad {
+                message: format!("text `{}` in column `{name}` is not a number", t.trim()),
+                help: if looks_numeric {
+                    "the cell holds a number stored as text; convert the column to numbers in the workbook".to_string()
+                } else {
+                    format!("column `{name}` must hold numbers only; fix or remove this cell")
+                },
+            })
+        }
+        Cell::Text(t) => match parse_number(t, fmt) {
+            Parsed::Value(v) => Ok(v),
+            Parsed::Missing(reason) => Err(Problem::Missing(reason)),
+            Parsed::Bad => Err(Problem::Bad {
+                message: format!("`{}` in column `{name}` is not a number", t.trim()),
+                help: bad_number_help(t, fmt).unwrap_or_else(|| {
+                    format!("column `{name}` must hold numbers only; fix or remove this cell")
+                }),
+            }),
+        },
+        Cell::Bool(b) => Err(Problem::Bad {
+            message: format!("the true/false cell `{b}` in column `{name}` is not a number"),
+            help: format!("column `{name}` must hold numbers only; fix or remove this cell"),
+        }),
+        Cell::Error(e) => Err(Problem::Bad {
+            message: format!("error value `{e}` in column `{name}`"),
+            help: "the cell's formula failed in the workbook; fix it there, or remove the row"
+                .to_string(),
+        }),
+    }
+}
+
+/// A label cell (`by`, `groups`): text as written (trimmed), numbers in their shortest form.
+fn label_cell(
+    grid: &Grid,
+    row: &GridRow,
+    col: &LabelColumn,
+    fmt: NumberFormat,
+) -> Result<String, Problem> {
+    let name = column_name(grid.header.as_deref().unwrap_or(&[]), col.index);
+    match row.cells.get(col.index).unwrap_or(&Cell::Empty) {
+        Cell::Text(t) if t.trim().is_empty() => Err(Problem::Missing("empty cell")),
+        Cell::Text(t) => Ok(match parse_number(t, fmt) {
+            Parsed::Value(v) if col.numeric_labels => number_label(v),
+            _ => t.trim().to_string(),
+        }),
+        Cell::Number(v) if v.is_finite() => Ok(number_label(*v)),
+        Cell::Number(_) => Err(Problem::Missing("NaN or infinite value")),
+        Cell::Bool(b) => Ok(b.to_string()),
+        Cell::Empty => Err(Problem::Missing("empty cell")),
+        Cell::Error(e) => Err(Problem::Bad {
+            message: format!("error value `{e}` in the `{}` column `{name}`", col.key),
+            help: "the cell's formula failed in the workbook; fix it there, or remove the row"
+                .to_string(),
+        }),
+    }
+}
+
+/// The 0-based index of a column, or an error at the recipe span naming what is there.
+fn find_column(
+    recipe: &Recipe,
+    path: &Path,
+    header: &[String],
+    width: usize,
+    column: &ColumnRef,
+    what: &str,
+    span: Option<Range<usize>>,
+) -> Result<usize> {
+    let locate = |err: Error| match &span {
+        Some(s) => err.at(recipe.locate(s.clone())),
+        None => err.in_file(path),
+    };
+    match column {
+        ColumnRef::Index(i) => {
+            if *i > width || *i == 0 {
+                Err(locate(Error::input(format!(
+                    "column {i} for `{what}` does not exist: `{}` has {width} column{}",
+                    path.display(),
+                    if width == 1 { "" } else { "s" }
+                )))
+                .help("column positions count from 1; check the delimiter and `format` too"))
+            } else {
+                Ok(i - 1)
+            }
+        }
+        ColumnRef::Name(n) => match header.iter().position(|h| h == n) {
+            Some(i) => Ok(i),
+            None => {
+                let err = locate(Error::input(format!(
+                    "column `{n}` for `{what}` is not in the header of `{}`",
+                    path.display()
+                )));
+                let named: Vec<&String> = header.iter().filter(|h| !h.is_empty()).collect();
+                let hint = match did_you_mean(n, named.iter().map(|h| h.as_str())) {
+                    Some(s) => format!("{s} (column names are case-sensitive)"),
+                    None => {
+                        let list = named
+                            .iter()
+                            .map(|h| format!("`{h}`"))
+                            .collect::<Vec<_>>()
+                            .join(", ");
+                        if let [only] = named.as_slice()
+                            && (only.contains(';') || only.contains('\t'))
+                        {
+                            format!(
+                                "the header is {list}: set `delimiter` in [data] to the file's separator"
+                            )
+                        } else if is_workbook(recipe, path) {
+                            format!(
+                                "the header has {list}; in a workbook, the header is the first row of `range` (or the row after `header_after`)"
+                            )
+                        } else {
+                            format!("the header has {list}")
+                        }
+                    }
+                };
+                Err(err.help(hint))
+            }
+        },
+    }
+}
+
+fn is_workbook(recipe: &Recipe, path: &Path) -> bool {
+    recipe
+        .data
+        .format
+        .unwrap_or_else(|| Format::from_extension(path))
+        .is_spreadsheet()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn units_lose_one_pair_of_brackets() {
+        assert_eq!(unit_text(" [°C] "), "°C");
+        assert_eq!(unit_text("(Ω)"), "Ω");
+        assert_eq!(unit_text("mV/V"), "mV/V");
+        assert_eq!(unit_text("[]"), "");
+    }
 }

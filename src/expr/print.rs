@@ -44,6 +44,24 @@ pub fn format_number(v: f64) -> String {
     }
 }
 
+/// A number for reading: at most 10 significant digits (`0.003354016435`, not
+/// `0.0033540164346805303`).
+pub fn format_number_short(v: f64) -> String {
+    let exact = format_number(v);
+    let digits = exact
+        .split(['e', 'E'])
+        .next()
+        .unwrap_or("")
+        .chars()
+        .filter(char::is_ascii_digit)
+        .collect::<String>();
+    if digits.trim_start_matches('0').len() <= 10 {
+        return exact;
+    }
+    let rounded: f64 = format!("{v:.9e}").parse().unwrap_or(v);
+    format_number(rounded)
+}
+
 #[derive(Clone, Copy)]
 struct Style {
     math: bool,
@@ -103,11 +121,10 @@ fn child(f: &mut fmt::Formatter<'_>, e: &Expr, min: u8, style: Style) -> fmt::Re
 fn write_expr(f: &mut fmt::Formatter<'_>, e: &Expr, style: Style) -> fmt::Result {
     match &e.kind {
         ExprKind::Number(v) => {
-            let text = format_number(*v);
             if style.math {
-                f.write_str(&text.replace('-', "−"))
+                f.write_str(&format_number_short(*v).replace('-', "−"))
             } else {
-                f.write_str(&text)
+                f.write_str(&format_number(*v))
             }
         }
         ExprKind::Name(n) => f.write_str(if style.math && n == "pi" { "π" } else { n }),

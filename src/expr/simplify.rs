@@ -27,6 +27,10 @@ use super::sym::{Node, cmp_nodes, split_coefficient};
 pub enum Mode {
     /// Value-preserving rewrites only; no expansion.
     Canonical,
+    /// Also the domain-restricted identities, recording conditions, but no expansion:
+    /// run before [`Mode::Expand`] so that `sqrt((a + b·x)^2)` collapses to `a + b·x`
+    /// before the square is multiplied out.
+    Collapse,
     /// Also expand and apply the domain-restricted identities, recording conditions.
     Expand,
 }
@@ -59,6 +63,14 @@ impl Simplifier {
             mode,
             conditions: Vec::new(),
         }
+    }
+
+    fn expanding(&self) -> bool {
+        self.mode == Mode::Expand
+    }
+
+    fn restricted(&self) -> bool {
+        self.mode != Mode::Canonical
     }
 
     /// Simplifies until the form no longer changes (at most a few passes).
@@ -121,12 +133,12 @@ impl Simplifier {
                 other => flat.push(other),
             }
         }
-        let mut constant = 0.0;
+        let mut constants = Vec::new();
         let mut keyed: Vec<(Node, f64)> = Vec::with_capacity(flat.len());
         for t in flat {
             let (c, mut factors) = into_coefficient(t);
             match factors.len() {
-                0 => constant += c,
+                0 => constants.push(c),
                 1 => keyed.push((factors.remove(0), c)),
                 _ => keyed.push((Node::Mul(factors), c)),
             }
@@ -146,8 +158,14 @@ impl Simplifier {
             }
             i = j;
         }
-        if constant != 0.0 && constant.is_finite() {
-            out.push(Node::num(constant));
+        let constant: f64 = constants.iter().sum();
+        if constant.is_finite() {
+            if constant != 0.0 {
+                out.push(Node::num(constant));
+            }
+        } else {
+            // Folding overflowed: keep the constants apart rather than produce inf.
+            out.extend(constants.into_iter().map(Node::num));
         }
         match out.len() {
             0 => Node::num(0.0),
@@ -165,15 +183,16 @@ impl Simplifier {
                 other => flat.push(other),
             }
         }
-        let mut coef = 1.0;
+        let mut numbers = Vec::new();
         let mut pairs: Vec<(Node, Node)> = Vec::with_capacity(flat.len());
         for f in flat {
             match f {
-                Node::Num(v) => coef *= v,
+                Node::Num(v) => numbers.push(v),
                 Node::Pow(b, e) => pairs.push((*b, *e)),
                 other => pairs.push((other, Node::num(1.0))),
             }
         }
+        let mut coef: f64 = numbers.iter().product();
         if coef == 0.0 {
             return Node::num(0.0);
         }
@@ -192,7 +211,10 @@ impl Simplifier {
         let mut refold = false;
         for (b, e) in merged {
             match self.pow(b, e) {
-                Node::Num(v) => coef *= v,
+                Node::Num(v) => {
+                    numbers.push(v);
+                    coef *= v;
+                }
                 f @ Node::Mul(_) => {
                     refold = true;
                     out.push(f);
@@ -201,13 +223,18 @@ impl Simplifier {
             }
         }
         if refold {
-            out.push(Node::num(coef));
+            if coef.is_finite() {
+                out.push(Node::num(coef));
+            } else {
+                out.extend(numbers.into_iter().map(Node::num));
+            }
             return self.mul(out);
         }
         if coef == 0.0 {
             return Node::num(0.0);
         }
-        if self.mode == Mode::Expand
+        if self.expanding()
+            && coef.is_finite()
             && out.iter().any(|f| matches!(f, Node::Add(_)))
             && let Some(expanded) = self.distribute(coef, &out)
         {
@@ -215,8 +242,10 @@ impl Simplifier {
         }
         out.sort_by(cmp_factors);
         if !coef.is_finite() {
-            // Overflowed folding: keep the numbers apart rather than produce inf.
-            return Node::Mul(out);
+            // Folding overflowed: keep the numbers apart rather than produce inf.
+            let mut all: Vec<Node> = numbers.into_iter().map(Node::num).collect();
+            all.extend(out);
+            return Node::Mul(all);
         }
         if out.is_empty() {
             return Node::num(coef);
@@ -279,7 +308,7 @@ impl Simplifier {
         match b {
             Node::Pow(u, a) => {
                 let safe = e_int.is_some() || a.as_num().is_some_and(|k| !is_even_integer(k));
-                if safe || self.mode == Mode::Expand {
+                if safe || self.restricted() {
                     if !safe {
                         let negative = match (a.as_num(), e.as_num()) {
                             (Some(x), Some(y)) => x * y < 0.0,
@@ -298,7 +327,7 @@ impl Simplifier {
                     return self.mul(powered);
                 }
                 let (c, rest) = split_coefficient(&Node::Mul(fs.clone()));
-                if self.mode == Mode::Expand && c > 0.0 {
+                if self.restricted() && c > 0.0 {
                     let negative = e.as_num().is_none_or(|k| k < 0.0);
                     let mut powered = vec![self.pow(Node::num(c), e.clone())];
                     for f in rest {
@@ -314,7 +343,7 @@ impl Simplifier {
                 let scaled = self.mul(vec![u, e]);
                 self.call(Func::Exp, vec![scaled])
             }
-            Node::Add(ts) if self.mode == Mode::Expand && matches!(e_int, Some(2.0..=4.0)) => {
+            Node::Add(ts) if self.expanding() && matches!(e_int, Some(2.0..=4.0)) => {
                 let n = e_int.map_or(2, |k| k as usize);
                 let copies = vec![Node::Add(ts); n];
                 match self.distribute(1.0, &copies) {
@@ -374,7 +403,7 @@ impl Simplifier {
                     None => Node::Call(Func::Exp, vec![k]),
                 }
             }
-            (Func::Exp, Node::Add(ts)) if self.mode == Mode::Expand => {
+            (Func::Exp, Node::Add(ts)) if self.expanding() => {
                 let factors = ts
                     .into_iter()
                     .map(|t| self.call(Func::Exp, vec![t]))
@@ -384,13 +413,13 @@ impl Simplifier {
             (Func::Abs, Node::Call(Func::Abs, inner)) => Node::Call(Func::Abs, inner),
             (Func::Abs, u) if sign(&u) != Sign::Unknown => u,
             (Func::Ln | Func::Log10 | Func::Log2, Node::Pow(b, k))
-                if self.mode == Mode::Expand || sign(&b) == Sign::Positive =>
+                if self.restricted() || sign(&b) == Sign::Positive =>
             {
                 self.require(&b, false, "ln(a^b) = b·ln a");
                 let log = self.call(f, vec![*b]);
                 self.mul(vec![*k, log])
             }
-            (Func::Ln | Func::Log10 | Func::Log2, Node::Mul(fs)) if self.mode == Mode::Expand => {
+            (Func::Ln | Func::Log10 | Func::Log2, Node::Mul(fs)) if self.restricted() => {
                 let (c, rest) = split_coefficient(&Node::Mul(fs.clone()));
                 if c <= 0.0 {
                     return Node::Call(f, vec![Node::Mul(fs)]);
@@ -428,15 +457,11 @@ fn into_coefficient(n: Node) -> (f64, Vec<Node>) {
     match n {
         Node::Num(v) => (v, Vec::new()),
         Node::Mul(fs) => {
-            let mut c = 1.0;
-            let mut rest = Vec::with_capacity(fs.len());
-            for f in fs {
-                match f {
-                    Node::Num(v) => c *= v,
-                    other => rest.push(other),
-                }
+            let c: f64 = fs.iter().filter_map(Node::as_num).product();
+            if !c.is_finite() {
+                return (1.0, fs);
             }
-            (c, rest)
+            (c, fs.into_iter().filter(|f| f.as_num().is_none()).collect())
         }
         other => (1.0, vec![other]),
     }

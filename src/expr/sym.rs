@@ -94,22 +94,6 @@ impl Node {
         }
     }
 
-    /// Replaces the symbol `name` by `with` everywhere (no simplification).
-    pub fn substitute(&self, name: &str, with: &Node) -> Node {
-        let sub = |n: &Node| n.substitute(name, with);
-        match self {
-            Node::Sym(s) if s == name => with.clone(),
-            Node::Num(_) | Node::Sym(_) | Node::Pi => self.clone(),
-            Node::Add(v) => Node::Add(v.iter().map(sub).collect()),
-            Node::Mul(v) => Node::Mul(v.iter().map(sub).collect()),
-            Node::Pow(a, b) => Node::pow(sub(a), sub(b)),
-            Node::Call(f, v) => Node::Call(*f, v.iter().map(sub).collect()),
-            Node::Cmp(op, a, b) => Node::Cmp(*op, Box::new(sub(a)), Box::new(sub(b))),
-            Node::Logic(op, v) => Node::Logic(*op, v.iter().map(sub).collect()),
-            Node::Not(a) => Node::Not(Box::new(sub(a))),
-        }
-    }
-
     /// Evaluates with plain IEEE arithmetic (NaN/inf flow through); `None` for an unknown name.
     pub fn eval(&self, lookup: &dyn Fn(&str) -> Option<f64>) -> Option<f64> {
         Some(match self {
@@ -255,20 +239,23 @@ pub fn to_node(e: &Expr) -> Node {
     }
 }
 
-/// Splits a product into its numeric coefficient and the remaining factors.
+/// Splits a product into its numeric coefficient and the remaining factors. When the
+/// numbers multiply to ±inf (they were kept apart for that reason) they stay factors.
 pub fn split_coefficient(n: &Node) -> (f64, Vec<Node>) {
     match n {
         Node::Num(v) => (*v, Vec::new()),
         Node::Mul(fs) => {
-            let mut c = 1.0;
-            let mut rest = Vec::new();
-            for f in fs {
-                match f {
-                    Node::Num(v) => c *= v,
-                    other => rest.push(other.clone()),
-                }
+            let c: f64 = fs.iter().filter_map(Node::as_num).product();
+            if !c.is_finite() {
+                return (1.0, fs.clone());
             }
-            (c, rest)
+            (
+                c,
+                fs.iter()
+                    .filter(|f| f.as_num().is_none())
+                    .cloned()
+                    .collect(),
+            )
         }
         other => (1.0, vec![other.clone()]),
     }

@@ -154,11 +154,6 @@ impl Tape {
         Ok(out.iter().map(|v| *v != 0.0).collect())
     }
 
-    /// The expression this tape evaluates.
-    pub fn expr(&self) -> &Expr {
-        &self.inner.exprs[0]
-    }
-
     /// Number of per-chunk instructions (after sharing and hoisting constants).
     pub fn len(&self) -> usize {
         self.inner.program.len()

@@ -1,6 +1,7 @@
 //! The stages of one recipe, in order: load and check the recipe, prepare the model and its
 //! data, fit, diagnose, judge, and write the run folder and the history line.
 
+pub mod compare;
 pub mod diagnostics;
 pub mod metrology;
 pub mod outputs;
@@ -18,24 +19,81 @@ use crate::recipe::{self, Recipe, ReportFormat};
 use crate::report;
 use crate::result::ResultDoc;
 
-/// Validate a recipe and its data; a one-line summary on success.
-pub fn check(path: &Path) -> Result<String> {
+/// What `check` found for a valid recipe.
+#[derive(Debug)]
+pub struct Checked {
+    /// One line: name, rows and files (channels for a `by` recipe).
+    pub summary: String,
+    /// For a recipe with `[data] by`: each channel in natural order, with its own summary or
+    /// error. Empty otherwise.
+    pub channels: Vec<(String, Result<String>)>,
+}
+
+impl Checked {
+    /// The channels that are invalid.
+    pub fn invalid_channels(&self) -> impl Iterator<Item = (&str, &Error)> {
+        self.channels
+            .iter()
+            .filter_map(|(c, r)| r.as_ref().err().map(|e| (c.as_str(), e)))
+    }
+}
+
+/// Validate one prepared model: the analysis must not find it unidentifiable.
+fn check_prepared(recipe: &Recipe, prep: &crate::model::Prepared) -> Result<String> {
+    metrology::check_variables(recipe, &prep.model)?;
+    let analysis = solve::analyse(recipe, prep)?;
+    solve::refuse_unidentifiable(recipe, &analysis)?;
+    Ok(rows_summary(prep))
+}
+
+/// Validate a recipe and its data; a one-line summary on success (and one per channel for a
+/// recipe with `by`, where a channel with bad data is invalid on its own).
+pub fn check(path: &Path) -> Result<Checked> {
     let recipe = recipe::load(path)?;
+    if recipe.data.by.is_some() {
+        let set = crate::model::prepare_channels(&recipe)?;
+        let files = set.files.len();
+        let channels = set.channels;
+        let invalid = channels.iter().filter(|(_, p)| p.is_err()).count();
+        let summary = format!(
+            "{}: {} channel{} from {files} file{}{}",
+            recipe.name.value,
+            channels.len(),
+            if channels.len() == 1 { "" } else { "s" },
+            if files == 1 { "" } else { "s" },
+            if invalid > 0 {
+                format!(", {invalid} invalid")
+            } else {
+                String::new()
+            }
+        );
+        let channels = channels
+            .into_iter()
+            .map(|(c, p)| (c, p.and_then(|p| check_prepared(&recipe, &p))))
+            .collect();
+        return Ok(Checked { summary, channels });
+    }
     let prep = crate::model::prepare(&recipe)?;
-    metrology::check_variables(&recipe, &prep.model)?;
+    Ok(Checked {
+        summary: format!("{}: {}", recipe.name.value, check_prepared(&recipe, &prep)?),
+        channels: Vec::new(),
+    })
+}
+
+/// "19 rows from 2 files, 3 filtered out".
+fn rows_summary(prep: &crate::model::Prepared) -> String {
     let ds = &prep.data;
     let filtered = if prep.rows_filtered > 0 {
         format!(", {} filtered out", prep.rows_filtered)
     } else {
         String::new()
     };
-    Ok(format!(
-        "{}: {} rows from {} file{}{filtered}",
-        recipe.name.value,
+    format!(
+        "{} rows from {} file{}{filtered}",
         ds.len(),
         ds.files.len(),
         if ds.files.len() == 1 { "" } else { "s" }
-    ))
+    )
 }
 
 /// Settings of a run that do not come from the recipe.
@@ -98,10 +156,74 @@ fn report_error(e: report::ReportError) -> Error {
 /// Load, fit, judge and render one recipe — everything except writing.
 pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     let recipe = recipe::load(path)?;
+    if recipe.data.by.is_some() {
+        return Err(Error::usage(
+            "this recipe has channels (`[data] by`): compute each with `compute_channels`",
+        )
+        .in_file(path)
+        .help("run it with `fitwright run`"));
+    }
     let prep = crate::model::prepare(&recipe)?;
-    let solved = solve::solve(&recipe, &prep)?;
-    let diag = diagnostics::compute(&prep, &solved);
     let dir = report_dir(&recipe, settings);
+    compute_prepared(recipe, prep, dir, None, settings)
+}
+
+/// A file-name-safe form of a channel value.
+pub fn channel_slug(value: &str) -> String {
+    let s: String = value
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || matches!(c, '.' | '_' | '-') {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
+    if s.is_empty() { "_".into() } else { s }
+}
+
+/// Average replicate groups when `[fit] average_replicates = true`: the fit then sees one row
+/// per group, each weighted by the summed weights of its members (see
+/// `data::average_replicates`).
+fn averaged(recipe: &Recipe, mut prep: crate::model::Prepared) -> Result<crate::model::Prepared> {
+    if !recipe.fit.average_replicates {
+        return Ok(prep);
+    }
+    let predictors: Vec<&str> = prep.model.predictors.iter().map(String::as_str).collect();
+    let labels = crate::data::replicate_labels(&prep.data, &predictors);
+    let avg = crate::data::average_replicates(&prep.data, &labels, prep.weights.as_deref())?;
+    prep.warnings.push(format!("{} rows averaged into {} replicate group means (`average_replicates = true`), weighted by group size", prep.data.len(), avg.data.len()));
+    prep.data = avg.data;
+    prep.weights = Some(avg.weights);
+    Ok(prep)
+}
+
+/// Fit, judge and render one prepared model (a whole recipe, or one channel of it).
+pub fn compute_prepared(
+    recipe: Recipe,
+    prep: crate::model::Prepared,
+    dir: PathBuf,
+    channel: Option<String>,
+    settings: &RunSettings,
+) -> Result<Computed> {
+    let prep = averaged(&recipe, prep)?;
+    // Units from the file's units row fill in what the recipe leaves out (recipe units win).
+    let mut recipe = recipe;
+    for (var, unit) in &prep.data.file_units {
+        recipe
+            .data
+            .units
+            .entry(var.clone())
+            .or_insert_with(|| unit.clone());
+    }
+    let analysis = solve::analyse(&recipe, &prep)?;
+    let solved = solve::solve(&recipe, &prep, &analysis)?;
+    let diag = diagnostics::compute(&recipe, &prep, &solved);
+    let start_diag = solved
+        .start
+        .as_ref()
+        .map(|s| diagnostics::compute(&recipe, &prep, s));
     let (mut history, mut warnings) = history::read(&dir.join("history.jsonl"))?;
     if let Some(before) = &settings.history_before
         && let Some(i) = history.iter().position(|h| h.run_id == *before)
@@ -128,8 +250,17 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
     let (rows, verdict) = metro.judge(&recipe, rows, solved.estimate.converged);
     let data_sha: Vec<String> = prep.data.files.iter().map(|f| f.sha256.clone()).collect();
     let hash = inputs_hash(&recipe.sha256, &data_sha);
-    let run_id = report::write::run_id(settings.time, &hash)
+    let mut run_id = report::write::run_id(settings.time, &hash)
         .map_err(|e| Error::internal(format!("run id: {e}")))?;
+    // The same inputs run twice within one second: keep both runs, numbered.
+    if dir.join(&run_id).exists() {
+        let base = run_id.clone();
+        let mut k = 2;
+        while dir.join(format!("{base}-{k}")).exists() {
+            k += 1;
+        }
+        run_id = format!("{base}-{k}");
+    }
     let generated_at = report::write::utc_timestamp(settings.time)
         .map_err(|e| Error::internal(format!("time: {e}")))?;
     warnings.extend(prep.warnings.iter().cloned());
@@ -152,12 +283,29 @@ pub fn compute(path: &Path, settings: &RunSettings) -> Result<Computed> {
         verdict,
         &run_id,
         &generated_at,
-        serde_json::Value::Null,
+        serde_json::to_value(&analysis).unwrap_or_default(),
         &warnings,
+        start_diag.as_ref(),
     );
+    doc.channel = channel.clone();
+    let comparisons = compare::compare(&recipe, &prep, &solved)?;
+    doc.compare = comparisons
+        .iter()
+        .filter_map(|c| serde_json::to_value(c).ok())
+        .collect();
+    doc.calibration = outputs::calibration_figures(&recipe, &prep, &solved)
+        .map(|c| serde_json::to_value(&c).unwrap_or_default());
     metro.fill_result(&recipe, &mut doc);
     let mut context = outputs::report_context(&recipe, &prep, &solved, &diag, &doc, verdict, &rows);
     metro.fill_context(&recipe, &doc, &mut context);
+    context.analysis = Some(outputs::analysis_summary(&analysis));
+    context.compare = compare::rows(&comparisons);
+    if let Some(c) = outputs::calibration_figures(&recipe, &prep, &solved) {
+        context.calibration_figures = c.rows();
+    }
+    if let Some(c) = &channel {
+        context.title = format!("{} — channel {c}", context.title);
+    }
     context.plots = plots;
     context.traceability.time_from_source_date_epoch = settings.time_from_epoch;
     Ok(Computed {
@@ -279,7 +427,32 @@ pub fn summary_text(c: &Computed) -> String {
                 .unwrap_or_default()
         ));
     }
-    s.push_str(&format!("  {}\n", figures(d)));
+    match &d.start_fit {
+        Some(st) => {
+            s.push_str(&format!(
+                "  linearized start ({}): {}\n",
+                st.transform,
+                outputs::fit_line(&st.statistics, &st.diagnostics)
+            ));
+            for p in &st.parameters {
+                if !p.fixed {
+                    s.push_str(&format!(
+                        "  {:>10}   start {}\n",
+                        p.name,
+                        report::format::full(p.value)
+                    ));
+                }
+            }
+            s.push_str(&format!(
+                "  refined fit (judged): {}\n",
+                outputs::fit_line(&d.statistics, &d.diagnostics)
+            ));
+        }
+        None => s.push_str(&format!(
+            "  {}\n",
+            outputs::fit_line(&d.statistics, &d.diagnostics)
+        )),
+    }
     for r in &c.rows {
         let mark = match r.status {
             Status::Pass => "pass",
@@ -297,6 +470,38 @@ pub fn summary_text(c: &Computed) -> String {
                 .unwrap_or_default()
         ));
     }
+    for c in &d.compare {
+        let eq = c.get("equation").and_then(|v| v.as_str()).unwrap_or("?");
+        let da = c
+            .get("delta_aicc")
+            .and_then(|v| v.as_f64())
+            .map_or("—".into(), |v| report::format::sig(v, 3));
+        let p = c.get("p_value").and_then(|v| v.as_f64()).map_or(
+            "no F-test (not nested)".into(),
+            |p| {
+                let t = report::format::p_value(p);
+                if t.starts_with('<') {
+                    format!("nested F-test p {t}")
+                } else {
+                    format!("nested F-test p = {t}")
+                }
+            },
+        );
+        s.push_str(&format!("  compared with {eq}: ΔAICc {da}, {p}\n"));
+    }
+    if let Some(cal) = &d.calibration {
+        let get = |k: &str| {
+            cal.get(k)
+                .and_then(|v| v.as_f64())
+                .map_or("—".into(), report::format::num)
+        };
+        let unit = cal.get("unit").and_then(|v| v.as_str()).unwrap_or("");
+        s.push_str(&format!(
+            "  LOD {} {unit} · LOQ {} {unit} (ICH Q2: 3.3·σ/slope, 10·σ/slope)\n",
+            get("lod"),
+            get("loq")
+        ));
+    }
     for w in &d.warnings {
         s.push_str(&format!("  warning: {w}\n"));
     }
@@ -306,20 +511,74 @@ pub fn summary_text(c: &Computed) -> String {
 /// Run one recipe end to end; an error becomes an invalid (or failed-output) outcome.
 pub fn run_recipe(path: &Path, settings: &RunSettings) -> Vec<RunOutcome> {
     let start = Instant::now();
-    let result = compute(path, settings).and_then(|mut c| {
+    let recipe = match recipe::load(path) {
+        Ok(r) => r,
+        Err(e) => {
+            return vec![RunOutcome::failed(
+                path,
+                "",
+                &e,
+                start.elapsed().as_secs_f64(),
+            )];
+        }
+    };
+    let name = recipe.name.value.clone();
+    if recipe.data.by.is_none() {
+        let result = crate::model::prepare(&recipe).and_then(|prep| {
+            let dir = report_dir(&recipe, settings);
+            compute_prepared(recipe, prep, dir, None, settings)
+        });
+        return vec![finish_run(path, &name, None, result, settings, start)];
+    }
+    // One fit per channel; a channel with bad data is invalid without stopping the others.
+    let set = match crate::model::prepare_channels(&recipe) {
+        Ok(s) => s,
+        Err(e) => {
+            return vec![RunOutcome::failed(
+                path,
+                &name,
+                &e,
+                start.elapsed().as_secs_f64(),
+            )];
+        }
+    };
+    let base = report_dir(&recipe, settings);
+    set.channels
+        .into_iter()
+        .map(|(channel, prep)| {
+            let t = Instant::now();
+            let dir = base.join(channel_slug(&channel));
+            let result = prep.and_then(|p| {
+                compute_prepared(recipe.clone(), p, dir, Some(channel.clone()), settings)
+            });
+            finish_run(path, &name, Some(channel), result, settings, t)
+        })
+        .collect()
+}
+
+/// Write a computed run and describe its outcome (or the error that stopped it).
+fn finish_run(
+    path: &Path,
+    name: &str,
+    channel: Option<String>,
+    result: Result<Computed>,
+    settings: &RunSettings,
+    start: Instant,
+) -> RunOutcome {
+    let result = result.and_then(|mut c| {
         let folder = write(&mut c, settings)?;
         Ok((c, folder))
     });
     let seconds = start.elapsed().as_secs_f64();
     match result {
         Ok((c, folder)) => {
-            if settings.verbose {
+            if settings.verbose && channel.is_none() {
                 print!("{}", summary_text(&c));
             }
-            vec![RunOutcome {
+            RunOutcome {
                 recipe: path.to_path_buf(),
                 name: c.doc.recipe.name.clone(),
-                channel: None,
+                channel,
                 verdict: c.verdict,
                 wording: c.verdict.wording().into(),
                 figures: figures(&c.doc),
@@ -344,11 +603,12 @@ pub fn run_recipe(path: &Path, settings: &RunSettings) -> Vec<RunOutcome> {
                 error: None,
                 exit_code: c.verdict.exit_code(),
                 seconds,
-            }]
+            }
         }
         Err(e) => {
-            let name = recipe::load(path).map(|r| r.name.value).unwrap_or_default();
-            vec![RunOutcome::failed(path, &name, &e, seconds)]
+            let mut o = RunOutcome::failed(path, name, &e, seconds);
+            o.channel = channel;
+            o
         }
     }
 }

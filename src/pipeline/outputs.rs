@@ -213,6 +213,7 @@ pub fn result_doc(
     generated_at: &str,
     analysis: serde_json::Value,
     warnings: &[String],
+    start_diag: Option<&Diagnostics>,
 ) -> ResultDoc {
     let x = prep.x();
     let y = prep.y();
@@ -249,8 +250,8 @@ pub fn result_doc(
         label: "linearized start".into(),
         transform: s.estimate.transform.clone().unwrap_or_default(),
         parameters: param_results(prep, s),
-        statistics: statistics_doc(s, &Diagnostics::default()),
-        diagnostics: BTreeMap::new(),
+        statistics: statistics_doc(s, start_diag.unwrap_or(&Diagnostics::default())),
+        diagnostics: start_diag.map(|d| d.to_json()).unwrap_or_default(),
     });
     ResultDoc {
         schema_version: SCHEMA_VERSION,
@@ -602,10 +603,11 @@ pub fn report_context(
     };
     if let Some(start) = &solved.start {
         ctx.parameter_tables.push(table(
-            "linearized start",
+            &format!("linearized start (transform {})", start.estimate.transform.as_deref().unwrap_or("?")),
             start,
-            Some("statistics of these values are computed in the original space".into()),
+            Some("from the linear fit of the transformed data, back-transformed; standard errors by the delta method (transformed-space covariance)".into()),
         ));
+        ctx.differences = Some(difference_table(prep, start, solved, doc));
     }
     ctx.parameter_tables.push(table(
         if solved.start.is_some() {
@@ -706,4 +708,232 @@ pub fn report_context(
 /// Runs-test measure when the diagnostics are not computed.
 pub fn no_runs(reason: &str) -> RunsMeasure {
     RunsMeasure::NotApplicable(reason.into())
+}
+
+/// The analysis as the report shows it.
+pub fn analysis_summary(a: &crate::analysis::Analysis) -> report::AnalysisSummary {
+    use crate::analysis::BackMethod;
+    let lin = a.linearization();
+    report::AnalysisSummary {
+        outcome: a.outcome.label().to_string(),
+        transform: lin.map(|l| {
+            if l.identity {
+                "none".to_string()
+            } else {
+                l.transform.to_math()
+            }
+        }),
+        derivation: crate::analysis::explain_text(a)
+            .lines()
+            .filter(|l| !l.trim().is_empty())
+            .map(|l| l.trim_end().to_string())
+            .collect(),
+        basis: lin.map_or_else(Vec::new, |l| {
+            l.basis
+                .iter()
+                .enumerate()
+                .map(|(j, b)| format!("h{} = {}", j + 1, b.h.to_math()))
+                .collect()
+        }),
+        coefficient_map: lin.map_or_else(Vec::new, |l| {
+            l.basis
+                .iter()
+                .zip(&l.coefficient_names)
+                .map(|(b, c)| format!("{c} = {}", b.g.to_math()))
+                .collect()
+        }),
+        back_transform: lin.map_or_else(Vec::new, |l| {
+            l.back_transform
+                .iter()
+                .map(|s| match (&s.method, &s.formula) {
+                    (BackMethod::Symbolic, Some(f)) => format!("{} = {}", s.parameter, f.to_math()),
+                    _ => format!("{} by Newton's method from its start value", s.parameter),
+                })
+                .collect()
+        }),
+        conditions: lin.map_or_else(Vec::new, |l| {
+            l.conditions
+                .iter()
+                .map(|c| report::ConditionRow {
+                    condition: c.expr.to_math(),
+                    applies_to: match c.scope {
+                        crate::analysis::Scope::Data => "every data row".into(),
+                        crate::analysis::Scope::Parameters => "the fitted parameters".into(),
+                        crate::analysis::Scope::Mixed => {
+                            "every row, with the fitted parameters".into()
+                        }
+                    },
+                    result: c.reason.clone(),
+                })
+                .collect()
+        }),
+        remarks: lin.map_or_else(Vec::new, |l| l.notes.clone()),
+    }
+}
+
+/// "R² 0.99790 · s 0.61 · runs p 0.0031" for one fit.
+pub fn fit_line(st: &Statistics, diag: &BTreeMap<String, serde_json::Value>) -> String {
+    let mut parts = vec![];
+    if let Some(r2) = st.r_squared {
+        parts.push(format!("R² {}", fmt::sig(r2, 6)));
+    }
+    parts.push(format!("s {}", fmt::num(st.std_error)));
+    if let Some(p) = diag
+        .get("runs")
+        .and_then(|r| r.get("p"))
+        .and_then(|p| p.as_f64())
+    {
+        parts.push(format!("runs p {}", fmt::p_value(p)));
+    }
+    if let Some(p) = diag
+        .get("shapiro_wilk")
+        .and_then(|r| r.get("p"))
+        .and_then(|p| p.as_f64())
+    {
+        parts.push(format!("Shapiro–Wilk p {}", fmt::p_value(p)));
+    }
+    parts.join(" · ")
+}
+
+/// The linearization bias: the refined parameters against the linearized start.
+fn difference_table(
+    prep: &Prepared,
+    start: &Solved,
+    refined: &Solved,
+    doc: &ResultDoc,
+) -> report::DifferenceTable {
+    let a = param_results(prep, start);
+    let b = param_results(prep, refined);
+    let rows = a
+        .iter()
+        .zip(&b)
+        .filter(|(x, _)| !x.fixed)
+        .map(|(x, y)| {
+            let d = y.value - x.value;
+            report::DifferenceRow {
+                name: x.name.clone(),
+                from: fmt::full(x.value),
+                to: fmt::full(y.value),
+                difference: fmt::num(d),
+                relative: if y.value != 0.0 {
+                    fmt::percent(d / y.value.abs(), 3)
+                } else {
+                    "—".into()
+                },
+                in_std_errors: y
+                    .std_error
+                    .filter(|se| *se > 0.0)
+                    .map_or("—".into(), |se| fmt::sig(d / se, 3)),
+            }
+        })
+        .collect();
+    let start_line = doc
+        .start_fit
+        .as_ref()
+        .map(|s| fit_line(&s.statistics, &s.diagnostics))
+        .unwrap_or_default();
+    report::DifferenceTable {
+        from_label: "linearized start".into(),
+        to_label: "refined".into(),
+        note: Some(format!(
+            "refined − linearized start: the bias of the linearized fit, also in units of the refined standard error. Linearized start: {start_line}; refined: {}",
+            fit_line(&doc.statistics, &doc.diagnostics)
+        )),
+        rows,
+    }
+}
+
+/// Detection and quantification limits of a straight-line calibration (ICH Q2(R1)):
+/// LOD = 3.3·σ/b, LOQ = 10·σ/b, σ the unweighted residual SD of the line (or the standard
+/// error of the intercept with `[limits] sigma = "intercept"`), b the slope; in predictor units.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct CalibrationFigures {
+    pub lod: f64,
+    pub loq: f64,
+    pub sigma: f64,
+    pub sigma_kind: String,
+    pub slope: f64,
+    pub unit: String,
+}
+
+impl CalibrationFigures {
+    pub fn rows(&self) -> Vec<report::StatRow> {
+        let note = Some(format!(
+            "ICH Q2(R1): 3.3·σ/slope and 10·σ/slope with σ = {} ({}); they assume a linear, homoscedastic response near the limit",
+            fmt::num(self.sigma),
+            self.sigma_kind
+        ));
+        let u = if self.unit.is_empty() {
+            String::new()
+        } else {
+            format!(" {}", self.unit)
+        };
+        let mut a = report::StatRow::new(
+            "lod",
+            "limit of detection (LOD)",
+            format!("{}{u}", fmt::num(self.lod)),
+        );
+        a.note = note.clone();
+        let mut b = report::StatRow::new(
+            "loq",
+            "limit of quantification (LOQ)",
+            format!("{}{u}", fmt::num(self.loq)),
+        );
+        b.note = note;
+        vec![a, b]
+    }
+}
+
+/// LOD and LOQ when the model is a straight line `b0 + b1·x` in its one predictor.
+pub fn calibration_figures(
+    recipe: &Recipe,
+    prep: &Prepared,
+    solved: &Solved,
+) -> Option<CalibrationFigures> {
+    if prep.model.predictors.len() != 1
+        || solved.names.len() != 2
+        || solved.estimate.method_used != "linear"
+    {
+        return None;
+    }
+    let x = &prep.model.predictors[0];
+    let rhs = prep.model.rhs_with_fixed();
+    let slope_expr = expr::simplify(&expr::derivative(&rhs, x));
+    if slope_expr.mentions(x) {
+        return None;
+    }
+    let l = |n: &str| {
+        solved
+            .names
+            .iter()
+            .position(|p| p == n)
+            .and_then(|i| solved.estimate.params.get(i).copied())
+    };
+    let slope = expr::eval_recursive(&slope_expr, &l).ok()?;
+    let (sigma, kind) = match recipe.limits.sigma {
+        crate::recipe::LimitsSigma::Residual => (
+            rms_residual(solved),
+            "unweighted residual SD of the line".to_string(),
+        ),
+        crate::recipe::LimitsSigma::Intercept => {
+            // The intercept is the parameter whose basis function is the constant.
+            let i = solved
+                .names
+                .iter()
+                .position(|n| expr::simplify(&expr::derivative(&rhs, n)).to_string() == "1")?;
+            (
+                solved.uncertainty.std_errors.get(i).copied().flatten()?,
+                "standard error of the intercept".to_string(),
+            )
+        }
+    };
+    let d = crate::stats::calibration::detection_limits(sigma, slope).ok()?;
+    Some(CalibrationFigures {
+        lod: d.lod,
+        loq: d.loq,
+        sigma,
+        sigma_kind: kind,
+        slope,
+        unit: recipe.data.unit(x).to_string(),
+    })
 }

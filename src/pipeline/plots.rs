@@ -85,10 +85,15 @@ pub fn plots(
             Some((curve_y, jac)) => {
                 let mut conf = (Vec::new(), Vec::new());
                 let mut pred = (Vec::new(), Vec::new());
-                let unweighted = prep.weights.is_none();
+                let weight_at = new_reading_weight(recipe, prep);
+                let unweighted = prep.weights.is_none() || weight_at.is_some();
                 for (i, fy) in curve_y.iter().enumerate() {
                     let g: Vec<f64> = (0..jac.ncols()).map(|j| jac[(i, j)]).collect();
-                    let reading = unweighted.then_some(NewReading { weight: 1.0, count: 1 });
+                    let w0 = match &weight_at {
+                        None => Some(1.0).filter(|_| prep.weights.is_none()),
+                        Some(f) => f(curve_x[i], *fy),
+                    };
+                    let reading = w0.map(|weight| NewReading { weight, count: 1 });
                     if let Ok(b) = solved.uncertainty.band(&g, *fy, reading) {
                         conf.0.push(b.confidence.0);
                         conf.1.push(b.confidence.1);
@@ -114,7 +119,9 @@ pub fn plots(
                 };
                 let mut caption = "bands are pointwise, from the linear approximation at the solution".to_string();
                 if !unweighted {
-                    caption.push_str("; no prediction band: a weighted fit needs the variance of a new reading, which the weights do not give here");
+                    caption.push_str("; no prediction band: the weights use columns other than the predictor and the response, so the variance of a new reading is not known");
+                } else if prep.weights.is_some() {
+                    caption.push_str("; the prediction band weights a new reading by the weights expression at the curve");
                 }
                 push(&mut out, warnings, "fit", format!("Data and fitted curve of {resp}"), Some(caption), plot::fit_plot(&input));
             }
@@ -191,7 +198,10 @@ pub fn plots(
                 .iter()
                 .filter_map(|h| {
                     h.parameters.get(name).map(|p| TrendPoint {
-                        label: h.run_id.chars().take(8).collect(),
+                        label: h.time.get(5..16).map_or_else(
+                            || h.run_id.chars().take(8).collect(),
+                            |t| t.replace('T', " "),
+                        ),
                         value: p.value,
                         std_error: p.std_error,
                         current: false,
@@ -239,6 +249,39 @@ pub fn plots(
         }
     }
     out
+}
+
+/// The weight of a new reading at (x₀, ŷ₀), when the weights expression uses only the
+/// predictor and the response (SPEC §13); `None` when it uses other columns.
+#[allow(clippy::type_complexity)]
+fn new_reading_weight<'a>(
+    recipe: &'a Recipe,
+    prep: &'a Prepared,
+) -> Option<Box<dyn Fn(f64, f64) -> Option<f64> + 'a>> {
+    let text = recipe.fit.weights.as_ref()?;
+    let e = crate::expr::parse_expression(&text.value).ok()?;
+    let x = prep.model.predictors.first()?.clone();
+    let y = prep.model.response.clone();
+    if e.identifiers()
+        .iter()
+        .any(|(n, _)| *n != x && *n != y && n != "pi")
+    {
+        return None;
+    }
+    Some(Box::new(move |x0: f64, y0: f64| {
+        let l = |n: &str| {
+            if n == x {
+                Some(x0)
+            } else if n == y {
+                Some(y0)
+            } else {
+                None
+            }
+        };
+        crate::expr::eval_recursive(&e, &l)
+            .ok()
+            .filter(|w| w.is_finite() && *w > 0.0)
+    }))
 }
 
 /// A plot-file-safe form of a variable name.

@@ -40,6 +40,13 @@ const DATA_KEYS: &[&str] = &[
     "where",
     "units",
     "missing",
+    "sheet",
+    "range",
+    "encoding",
+    "header_after",
+    "units_row",
+    "thousands",
+    "by",
 ];
 const MODEL_KEYS: &[&str] = &["equation", "preset", "parameters"];
 const PARAM_KEYS: &[&str] = &["start", "min", "max", "fixed", "unit"];
@@ -187,6 +194,7 @@ fn choice_error(
 }
 
 fn check_data(mut s: Section<'_>, dir: &Path) -> Result<DataSpec> {
+    let key_spans = s.key_spans();
     let (files_span, items) = s.list("files")?.ok_or_else(|| {
         s.error(s.span.clone(), "[data] has no `files`")
             .help("add `files = [\"data/*.csv\"]` (paths relative to the recipe)")
@@ -231,6 +239,39 @@ fn check_data(mut s: Section<'_>, dir: &Path) -> Result<DataSpec> {
             other => return Err(choice_error(&s, d.span, "decimal", other, &[".", ","])),
         },
     };
+    let thousands = match s.string("thousands")? {
+        None => None,
+        Some(t) => {
+            let c = match t.value.as_str() {
+                "." => '.',
+                "," => ',',
+                " " => ' ',
+                "'" => '\'',
+                other => {
+                    return Err(choice_error(
+                        &s,
+                        t.span,
+                        "thousands",
+                        other,
+                        &[".", ",", " ", "'"],
+                    ));
+                }
+            };
+            if c == if decimal_comma { ',' } else { '.' } {
+                return Err(s
+                    .error(
+                        t.span,
+                        format!("`thousands = \"{c}\"` is also the decimal separator"),
+                    )
+                    .help(if decimal_comma {
+                        "with `decimal = \",\"` the thousands separator is usually \".\" or \" \""
+                    } else {
+                        "with the default `decimal = \".\"` the thousands separator is usually \",\"; for 1.234,5 set `decimal = \",\"` too"
+                    }));
+            }
+            Some(c)
+        }
+    };
     if decimal_comma && delimiter == Some(b',') {
         return Err(s
             .error(s.span.clone(), "`decimal = \",\"` cannot be used with `delimiter = \",\"`")
@@ -245,7 +286,56 @@ fn check_data(mut s: Section<'_>, dir: &Path) -> Result<DataSpec> {
         c => c.map(|c| c.value),
     };
     let header = s.boolean("header")?.is_none_or(|b| b.value);
-    let skip_rows = s.count("skip_rows")?.map_or(0, |c| c.value);
+    let skip = s.count("skip_rows")?;
+    let header_after = s.string("header_after")?;
+    if let Some(h) = &header_after {
+        if h.value.trim().is_empty() {
+            return Err(s
+                .error(h.span.clone(), "`header_after` must not be empty")
+                .help("give the text that starts the line before the header, e.g. \"Data:\""));
+        }
+        if let Some(k) = &skip {
+            return Err(s
+                .error(k.span.clone(), "`skip_rows` and `header_after` cannot be used together")
+                .help("keep `header_after` to skip to the line after the marker, or `skip_rows` for a fixed count"));
+        }
+    }
+    let skip_rows = skip.map_or(0, |c| c.value);
+    let units_row = match s.boolean("units_row")? {
+        Some(u) if u.value && !header => {
+            return Err(s
+                .error(u.span, "`units_row = true` needs a header row, but `header = false`")
+                .help("the units row is the row after the header; remove `units_row` or set `header = true`"));
+        }
+        u => u.is_some_and(|u| u.value),
+    };
+    let encoding = match s.string("encoding")? {
+        None => None,
+        Some(e) => Some(Spanned::new(check_encoding(&s, &e)?, e.span)),
+    };
+    let sheet = match s.string("sheet")? {
+        Some(sh) if sh.value.is_empty() => {
+            return Err(s
+                .error(sh.span, "`sheet` must not be empty")
+                .help("give the sheet's name as shown on its tab, e.g. \"Run 3\""));
+        }
+        sh => sh,
+    };
+    let range = match s.string("range")? {
+        None => None,
+        Some(r) => match CellRange::parse(&r.value) {
+            Some(c) => Some(Spanned::new(c, r.span)),
+            None => {
+                return Err(s
+                    .error(r.span, format!("`range = \"{}\"` is not a cell range", r.value))
+                    .help("write the top-left and bottom-right cells, e.g. \"A5:D40\" (at most XFD1048576)"));
+            }
+        },
+    };
+    let by = match s.take("by") {
+        None => None,
+        Some((k, node)) => Some(Spanned::new(column_ref(&s, &k.name, &node)?, node.span)),
+    };
     let mut columns = Vec::new();
     if let Some(table) = s.open_table("columns")? {
         for (k, node) in table.into_entries() {
@@ -254,25 +344,21 @@ fn check_data(mut s: Section<'_>, dir: &Path) -> Result<DataSpec> {
                     .error(k.span, format!("`{}` is not a valid variable name", k.name))
                     .help("variable names start with a letter or `_` and contain letters, digits and `_`"));
             }
-            let col = match node.value {
-                Value::Str(ref c) if !c.is_empty() => ColumnRef::Name(c.clone()),
-                Value::Int(i) if i >= 1 => ColumnRef::Index(i as usize),
-                Value::Int(_) => {
-                    return Err(s
-                        .error(node.span, "column positions count from 1")
-                        .help("write the 1-based position of the column, e.g. `T = 1`"));
-                }
-                ref v => {
-                    return Err(s
-                        .error(
-                            node.span.clone(),
-                            format!("column of `{}` must be a header name or a 1-based position, found {}", k.name, v.type_name()),
-                        )
-                        .help("for example `T = \"temp_c\"` or `T = 1`"));
-                }
-            };
+            let col = column_ref(&s, &k.name, &node)?;
             columns.push((Spanned::new(k.name, k.span), Spanned::new(col, node.span)));
         }
+    }
+    if !header
+        && let Some(col) = by
+            .as_ref()
+            .filter(|b| matches!(b.value, ColumnRef::Name(_)))
+    {
+        return Err(s
+            .error(
+                col.span.clone(),
+                "`by` names a header column, but `header = false`",
+            )
+            .help("without a header row, choose the column by 1-based position, e.g. `by = 1`"));
     }
     if !header
         && let Some((var, col)) = columns
@@ -328,20 +414,129 @@ fn check_data(mut s: Section<'_>, dir: &Path) -> Result<DataSpec> {
             }
         },
     };
-    Ok(DataSpec {
+    let spec = DataSpec {
         files,
         files_span,
         format,
         delimiter,
         decimal_comma,
+        thousands,
         comment,
         header,
         skip_rows,
+        header_after,
+        units_row,
+        encoding,
+        sheet,
+        range,
+        by,
         columns,
         where_,
         units,
         missing,
-    })
+        key_spans,
+    };
+    if let Some(f) = spec.format {
+        let misplaced = if f.is_spreadsheet() {
+            spec.text_only_keys()
+        } else {
+            spec.sheet_only_keys()
+        };
+        if let Some(key) = misplaced.first()
+            && let Some(span) = spec.key_span(key)
+        {
+            return Err(s
+                .error(
+                    span,
+                    format!("`{key}` does not apply to `format = \"{}\"`", f.name()),
+                )
+                .help(misplaced_key_help(key)));
+        }
+    }
+    Ok(spec)
+}
+
+/// How to fix a `[data]` key given for the wrong kind of file.
+pub fn misplaced_key_help(key: &str) -> &'static str {
+    match key {
+        "sheet" | "range" => {
+            "`sheet` and `range` select cells of an .xlsx or .ods workbook; remove them for text files"
+        }
+        "encoding" => "a workbook stores its text as Unicode; remove `encoding`",
+        _ => {
+            "a workbook stores typed numbers, so delimiters and number formats do not apply; remove the key"
+        }
+    }
+}
+
+/// WHATWG encoding labels offered in "did you mean" hints.
+const COMMON_ENCODINGS: &[&str] = &[
+    "utf-8",
+    "utf-16le",
+    "utf-16be",
+    "windows-1252",
+    "latin1",
+    "iso-8859-1",
+    "iso-8859-15",
+    "windows-1250",
+    "windows-1251",
+    "windows-1253",
+    "shift_jis",
+    "gbk",
+    "koi8-r",
+];
+
+/// An encoding label of the WHATWG Encoding Standard (https://encoding.spec.whatwg.org/),
+/// looked up with `encoding_rs`.
+fn check_encoding(
+    s: &Section<'_>,
+    label: &Spanned<String>,
+) -> Result<&'static encoding_rs::Encoding> {
+    match encoding_rs::Encoding::for_label(label.value.trim().as_bytes()) {
+        // The "replacement" encoding decodes everything to U+FFFD: never what a data file needs.
+        Some(e) if e != encoding_rs::REPLACEMENT => Ok(e),
+        _ => {
+            let err = s.error(
+                label.span.clone(),
+                format!(
+                    "`encoding = \"{}\"` is not a known text encoding",
+                    label.value
+                ),
+            );
+            let list = "e.g. \"windows-1252\" (also called \"latin1\"), \"iso-8859-15\", \"utf-16le\" — a WHATWG Encoding Standard label";
+            Err(
+                match did_you_mean(&label.value, COMMON_ENCODINGS.iter().copied()) {
+                    Some(m) => err.help(format!("{m} ({list})")),
+                    None => err.help(format!("use an encoding label, {list}")),
+                },
+            )
+        }
+    }
+}
+
+/// A column chosen by header name (a non-empty string) or by 1-based position.
+fn column_ref(s: &Section<'_>, key: &str, node: &Node) -> Result<ColumnRef> {
+    match node.value {
+        Value::Str(ref c) if !c.is_empty() => Ok(ColumnRef::Name(c.clone())),
+        Value::Int(i) if i >= 1 => usize::try_from(i).map(ColumnRef::Index).map_err(|_| {
+            s.error(node.span.clone(), "this column position is too large")
+                .help("write the 1-based position of the column")
+        }),
+        Value::Int(_) => Err(s
+            .error(node.span.clone(), "column positions count from 1")
+            .help(format!(
+                "write the 1-based position of the column, e.g. `{key} = 1`"
+            ))),
+        ref v => Err(s
+            .error(
+                node.span.clone(),
+                format!(
+                    "column of `{key}` must be a header name or a 1-based position, found {}",
+                    v.type_name()
+                ),
+            )
+            .help(format!("for example `{key} = \"temp_c\"` or `{key} = 1`"))),
+    }
 }
 
 fn check_file_entry(s: &Section<'_>, node: Node, dir: &Path) -> Result<FileSpec> {

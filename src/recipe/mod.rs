@@ -95,28 +95,49 @@ impl Recipe {
     }
 }
 
-/// Layout of delimited text files.
+/// Layout of a data file: delimited text, or a spreadsheet workbook.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Format {
     Csv,
     Tsv,
     Whitespace,
+    /// Office Open XML workbook (`.xlsx`, `.xlsm`).
+    Xlsx,
+    /// OpenDocument spreadsheet (`.ods`).
+    Ods,
 }
 
 impl Format {
-    pub const NAMES: [&'static str; 3] = ["csv", "tsv", "whitespace"];
+    pub const NAMES: [&'static str; 5] = ["csv", "tsv", "whitespace", "xlsx", "ods"];
 
     pub fn parse(name: &str) -> Option<Format> {
         match name {
             "csv" => Some(Format::Csv),
             "tsv" => Some(Format::Tsv),
             "whitespace" => Some(Format::Whitespace),
+            "xlsx" => Some(Format::Xlsx),
+            "ods" => Some(Format::Ods),
             _ => None,
         }
     }
 
+    pub fn name(self) -> &'static str {
+        match self {
+            Format::Csv => "csv",
+            Format::Tsv => "tsv",
+            Format::Whitespace => "whitespace",
+            Format::Xlsx => "xlsx",
+            Format::Ods => "ods",
+        }
+    }
+
+    /// Workbooks are read cell by cell; the others as text.
+    pub fn is_spreadsheet(self) -> bool {
+        matches!(self, Format::Xlsx | Format::Ods)
+    }
+
     /// The format implied by a file extension: `.tsv` tab-separated, `.txt`/`.dat` whitespace,
-    /// anything else comma-separated.
+    /// `.xlsx`/`.xlsm` and `.ods` workbooks, anything else comma-separated.
     pub fn from_extension(path: &Path) -> Format {
         match path
             .extension()
@@ -126,9 +147,98 @@ impl Format {
         {
             Some("tsv" | "tab") => Format::Tsv,
             Some("txt" | "dat") => Format::Whitespace,
+            Some("xlsx" | "xlsm") => Format::Xlsx,
+            Some("ods") => Format::Ods,
             _ => Format::Csv,
         }
     }
+}
+
+/// A rectangle of spreadsheet cells, `A5:D40`; rows and columns count from 0 (`A1` = (0, 0)).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct CellRange {
+    pub first_row: u32,
+    pub first_col: u32,
+    pub last_row: u32,
+    pub last_col: u32,
+}
+
+impl CellRange {
+    /// The largest sheet the workbook formats allow: 1,048,576 rows and 16,384 columns (`XFD`).
+    pub const MAX_ROWS: u32 = 1_048_576;
+    pub const MAX_COLS: u32 = 16_384;
+
+    /// Parse `A5:D40` (letters case-insensitive). `None` when it is not two cell names
+    /// inside the sheet limits, top-left first.
+    pub fn parse(text: &str) -> Option<CellRange> {
+        let (a, b) = text.trim().split_once(':')?;
+        let (r0, c0) = parse_cell_name(a.trim())?;
+        let (r1, c1) = parse_cell_name(b.trim())?;
+        (r0 <= r1 && c0 <= c1).then_some(CellRange {
+            first_row: r0,
+            first_col: c0,
+            last_row: r1,
+            last_col: c1,
+        })
+    }
+
+    pub fn contains(&self, row: u32, col: u32) -> bool {
+        (self.first_row..=self.last_row).contains(&row)
+            && (self.first_col..=self.last_col).contains(&col)
+    }
+}
+
+impl std::fmt::Display for CellRange {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "{}:{}",
+            cell_name(self.first_row, self.first_col),
+            cell_name(self.last_row, self.last_col)
+        )
+    }
+}
+
+/// `B7` for row 6, column 1 (both from 0).
+pub fn cell_name(row: u32, col: u32) -> String {
+    format!("{}{}", column_letters(col), u64::from(row) + 1)
+}
+
+/// `A`, `B`, …, `Z`, `AA`, … for columns 0, 1, …, 25, 26, … (bijective base 26).
+pub fn column_letters(col: u32) -> String {
+    let mut n = u64::from(col) + 1;
+    let mut out = Vec::new();
+    while n > 0 {
+        let rem = ((n - 1) % 26) as u8;
+        out.push(char::from(b'A' + rem));
+        n = (n - 1) / 26;
+    }
+    out.iter().rev().collect()
+}
+
+/// `B7` → (6, 1); `None` outside the sheet limits or when malformed.
+pub fn parse_cell_name(name: &str) -> Option<(u32, u32)> {
+    let letters = name.len()
+        - name
+            .trim_start_matches(|c: char| c.is_ascii_alphabetic())
+            .len();
+    let (l, digits) = name.split_at(letters);
+    if l.is_empty()
+        || l.len() > 3
+        || digits.is_empty()
+        || !digits.bytes().all(|b| b.is_ascii_digit())
+    {
+        return None;
+    }
+    let mut col: u32 = 0;
+    for b in l.bytes() {
+        col = col * 26 + u32::from(b.to_ascii_uppercase() - b'A') + 1;
+    }
+    let row: u32 = digits.parse().ok()?;
+    if row == 0 || row > CellRange::MAX_ROWS || col > CellRange::MAX_COLS {
+        return None;
+    }
+    Some((row - 1, col - 1))
 }
 
 /// One entry of `[data] files`: a glob pattern, or a single file pinned by its hash.
@@ -168,6 +278,11 @@ pub enum Missing {
     Skip,
 }
 
+/// `[data]` keys that describe text and mean nothing in a workbook, whose cells are typed.
+pub const TEXT_ONLY_KEYS: [&str; 5] = ["delimiter", "decimal", "thousands", "comment", "encoding"];
+/// `[data]` keys that select cells of a workbook.
+pub const SHEET_ONLY_KEYS: [&str; 2] = ["sheet", "range"];
+
 /// `[data]`.
 #[derive(Debug, Clone)]
 pub struct DataSpec {
@@ -176,20 +291,64 @@ pub struct DataSpec {
     pub format: Option<Format>,
     pub delimiter: Option<u8>,
     pub decimal_comma: bool,
+    /// Thousands separator (`.`, `,`, ` ` or `'`), removed from numbers in text files.
+    pub thousands: Option<char>,
     pub comment: Option<String>,
     pub header: bool,
     pub skip_rows: usize,
+    /// Skip to the line after the first line starting with this marker (instead of
+    /// `skip_rows`).
+    pub header_after: Option<Spanned<String>>,
+    /// The row after the header holds the units of the columns.
+    pub units_row: bool,
+    /// Text encoding of text files when there is no byte-order mark (default UTF-8).
+    pub encoding: Option<Spanned<&'static encoding_rs::Encoding>>,
+    /// Spreadsheet sheet by name (default: the first sheet).
+    pub sheet: Option<Spanned<String>>,
+    /// Spreadsheet cell range (default: the used range of the sheet).
+    pub range: Option<Spanned<CellRange>>,
+    /// The column that names the channel of each row (one fit per channel).
+    pub by: Option<Spanned<ColumnRef>>,
     /// Model variable → column, in recipe order.
     pub columns: Vec<(Spanned<String>, Spanned<ColumnRef>)>,
     pub where_: Option<Text>,
     pub units: BTreeMap<String, String>,
     pub missing: Missing,
+    /// Every key written in `[data]` with the span of `key = value`, for errors only loading
+    /// can detect (a `range` given for a CSV file found by a glob).
+    pub key_spans: Vec<(String, Range<usize>)>,
 }
 
 impl DataSpec {
     /// The unit of a variable, or "" when none is given.
     pub fn unit(&self, var: &str) -> &str {
         self.units.get(var).map_or("", String::as_str)
+    }
+
+    /// The span of `key = value` in `[data]`, when the key is written.
+    pub fn key_span(&self, key: &str) -> Option<Range<usize>> {
+        self.key_spans
+            .iter()
+            .find(|(k, _)| k == key)
+            .map(|(_, s)| s.clone())
+    }
+
+    /// The keys that only apply to text files, as written in this recipe.
+    pub fn text_only_keys(&self) -> Vec<&str> {
+        TEXT_ONLY_KEYS
+            .iter()
+            .copied()
+            .filter(|k| self.key_span(k).is_some())
+            .collect()
+    }
+
+    /// The keys that only apply to spreadsheets, as written in this recipe.
+    pub fn sheet_only_keys(&self) -> Vec<&str> {
+        SHEET_ONLY_KEYS
+            .iter()
+            .copied()
+            .filter(|k| self.key_span(k).is_some())
+            .collect()
     }
 }
 
@@ -424,4 +583,54 @@ pub fn load(path: &Path) -> Result<Recipe> {
     let source = Arc::new(SourceFile::new(path, text));
     let raw = raw::RawRecipe::parse(source)?;
     check_recipe(raw, sha256)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn cell_ranges_parse_and_print() {
+        let r = CellRange::parse("A5:D40").expect("valid range");
+        assert_eq!(
+            (r.first_row, r.first_col, r.last_row, r.last_col),
+            (4, 0, 39, 3)
+        );
+        assert_eq!(r.to_string(), "A5:D40");
+        assert_eq!(
+            CellRange::parse(" b2 : aa10 ").map(|r| r.to_string()),
+            Some("B2:AA10".into())
+        );
+        assert_eq!(
+            CellRange::parse("A1:XFD1048576").map(|r| r.last_col),
+            Some(16_383)
+        );
+    }
+
+    #[test]
+    fn malformed_or_reversed_ranges_are_refused() {
+        for bad in [
+            "A5",
+            "D40:A5",
+            "A0:B2",
+            "A1:XFE2",
+            "A1:B1048577",
+            "5A:D4",
+            "A1:B2:C3",
+            "",
+        ] {
+            assert_eq!(CellRange::parse(bad), None, "{bad}");
+        }
+    }
+
+    #[test]
+    fn column_letters_are_bijective_base_26() {
+        assert_eq!(column_letters(0), "A");
+        assert_eq!(column_letters(25), "Z");
+        assert_eq!(column_letters(26), "AA");
+        assert_eq!(column_letters(701), "ZZ");
+        assert_eq!(column_letters(702), "AAA");
+        assert_eq!(cell_name(6, 1), "B7");
+        assert_eq!(parse_cell_name("ZZ1"), Some((0, 701)));
+    }
 }

@@ -73,6 +73,14 @@ impl<'a> Section<'a> {
         Some(self.entries.remove(i))
     }
 
+    /// Every remaining key with the span of `key = value`.
+    pub fn key_spans(&self) -> Vec<(String, Range<usize>)> {
+        self.entries
+            .iter()
+            .map(|(k, n)| (k.name.clone(), k.span.start..n.span.end.max(k.span.end)))
+            .collect()
+    }
+
     /// All remaining entries (for tables with free keys).
     pub fn into_entries(self) -> Vec<(Key, Node)> {
         self.entries

@@ -298,6 +298,13 @@ fn with_title(svg: &str, title: &str) -> String {
 /// Tick label text: 6 significant digits with trailing zeros removed (ticks
 /// are round numbers; `0.30000000000000004` is drawn `0.3`).
 fn tick_label(v: f64) -> String {
+    tick_label_in(v, 0.0)
+}
+
+/// Tick label on an axis spanning `span`: a tick within 1e-9·span of zero is drawn `0`
+/// (the grid steps add up to values like 3.5e-18 there).
+fn tick_label_in(v: f64, span: f64) -> String {
+    let v = if v.abs() <= 1e-9 * span.abs() { 0.0 } else { v };
     let text = super::format::sig(v, 6);
     let (mantissa, exponent) = match text.split_once('e') {
         Some((m, e)) => (m.to_string(), Some(e.to_string())),
@@ -408,7 +415,9 @@ fn frame<'a, 'b>(
         .y_label_area_size(84)
         .build_cartesian_2d(x_range.0..x_range.1, y_range.0..y_range.1)
         .map_err(plot_error(plot))?;
-    let formatter = |v: &f64| tick_label(*v);
+    let (x_span, y_span) = (x_range.1 - x_range.0, y_range.1 - y_range.0);
+    let x_formatter = |v: &f64| tick_label_in(*v, x_span);
+    let y_formatter = |v: &f64| tick_label_in(*v, y_span);
     chart
         .configure_mesh()
         .light_line_style(TRANSPARENT)
@@ -416,8 +425,8 @@ fn frame<'a, 'b>(
         .axis_style(MUTED)
         .x_labels(8)
         .y_labels(7)
-        .x_label_formatter(&formatter)
-        .y_label_formatter(&formatter)
+        .x_label_formatter(&x_formatter)
+        .y_label_formatter(&y_formatter)
         .label_style(label_font(16))
         .axis_desc_style(label_font(17))
         .x_desc(x_axis.text())

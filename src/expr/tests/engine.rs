@@ -343,7 +343,15 @@ fn deepest_accepted_inputs_survive_every_pass() {
     let nested_mixed = format!("{}x{}", "(x*(1 + ".repeat(100), "))".repeat(100));
     let nested_powers = format!("{}x{}", "(1 + x^".repeat(100), ")".repeat(100));
     let nested_signs = format!("{}x{}", "-(".repeat(100), ")".repeat(100));
-    for src in [nested_calls, nested_mixed, nested_powers, nested_signs] {
+    // A sum and a product per parenthesis: the deepest tree per nesting level.
+    let nested_chains = format!("{}x{}", "x + 2*(".repeat(200), ")".repeat(200));
+    for src in [
+        nested_calls,
+        nested_mixed,
+        nested_powers,
+        nested_signs,
+        nested_chains,
+    ] {
         let e = parse_expression(&src).expect("accepted");
         assert_eq!(parse_expression(&e.to_string()).unwrap(), e);
         assert!(resolve(&e, &["x"], &[]).is_ok());
@@ -366,5 +374,62 @@ fn deepest_accepted_inputs_survive_every_pass() {
             r.unwrap();
             assert!((v[0] - a).abs() <= 1e-12 * a.abs().max(1.0));
         }
+    }
+}
+
+#[test]
+fn deepest_accepted_filter_survives_evaluation_and_printing() {
+    let src = format!(
+        "{}x > 0{}",
+        "(x < 1 || y > 2 && !(".repeat(66),
+        "))".repeat(66)
+    );
+    let f = parse_filter(&src).expect("accepted");
+    assert_eq!(parse_filter(&f.to_string()).unwrap(), f);
+    let tape = Tape::compile(&f, &Symbols::new(&["x", "y"], &[])).unwrap();
+    let mask = tape
+        .eval_mask(&[&[0.5, 2.0, 3.0], &[0.0, 3.0, 1.0]], &[])
+        .unwrap();
+    let reference: Vec<bool> = [(0.5, 0.0), (2.0, 3.0), (3.0, 1.0)]
+        .iter()
+        .map(|&(x, y)| {
+            let l = |n: &str| match n {
+                "x" => Some(x),
+                "y" => Some(y),
+                _ => None,
+            };
+            eval_recursive(&f, &l).unwrap() != 0.0
+        })
+        .collect();
+    assert_eq!(mask, reference);
+}
+
+#[test]
+fn collapse_mode_cancels_a_root_of_a_square_before_anything_is_expanded() {
+    let mut s = Simplifier::new(Mode::Collapse);
+    let n = s.run(&to_node(&p("sqrt((a + b*x)^2)")));
+    assert_eq!(to_expr(&n).to_string(), "a + b*x");
+    let conds: Vec<String> = s
+        .conditions
+        .iter()
+        .map(|c| to_expr(&c.node).to_string())
+        .collect();
+    assert_eq!(conds, ["a + b*x >= 0"]);
+    // Expanding first would have lost it: the square becomes a sum under the root.
+    assert_eq!(
+        expand("sqrt((a + b*x)^2)").0,
+        "sqrt(a^2 + 2*a*b*x + b^2*x^2)"
+    );
+}
+
+#[test]
+fn constant_folding_that_would_overflow_keeps_the_numbers() {
+    // Folding 1e200·1e200 or 1e308 + 1e308 gives inf, which is not a number of the
+    // grammar and would hide the overflow: the constants stay apart.
+    assert_eq!(canon("1e200*1e200*x"), "1e200*1e200*x");
+    assert_eq!(canon("x + 1e308 + 1e308"), "x + 1e308 + 1e308");
+    assert_eq!(canon("x + 1e300 + 1e300"), "x + 2e300");
+    for src in ["1e200*1e200*x", "x + 1e308 + 1e308"] {
+        assert!(parse_expression(&canon(src)).is_ok());
     }
 }
