@@ -354,6 +354,29 @@ mod tests {
     }
 
     #[test]
+    fn gum_rounding_keeps_two_digits_of_u_and_the_value_to_that_place() {
+        // JCGM 100:2008 7.2.6 (from memory): "if y = 10.057 62 Ω with u_c(y) = 27 mΩ, y should
+        // be rounded to 10.058 Ω"; "u(xᵢ) = 28.05 kHz should be rounded down to 28 kHz". The
+        // guide allows rounding an uncertainty up (10.47 mΩ → 11 mΩ); fitwright rounds to the
+        // nearest, so 10.47 gives 10.
+        assert_eq!(
+            format::value_with_uncertainty(10.057_62, 0.027),
+            ("10.058".to_string(), "0.027".to_string())
+        );
+        assert_eq!(format::uncertainty(28.05), "28");
+        assert_eq!(format::uncertainty(10.47), "10");
+        // A read-off states U that way: 2 digits of U, the value to the same place.
+        let c = line(1.0, 2.0, [[0.0, 0.0], [0.0, 0.0]], 0.0, 8);
+        let b = budget(vec![comp("readout", 0.0123, "y")]);
+        let r = forward(&c, 3.0123456, None, &b, false).expect("reads");
+        assert_eq!(r.text(), "7.025 ± 0.025");
+        assert!(
+            r.statement("mA")
+                .starts_with("y = 7.025 ± 0.025 mA (expanded uncertainty U, k = 2,")
+        );
+    }
+
+    #[test]
     fn unknown_variable_in_a_component_is_an_error() {
         let c = line(1.0, 2.0, [[0.0, 0.0], [0.0, 0.0]], 0.0, 8);
         let b = budget(vec![comp("ambient", 0.1, "T_room")]);

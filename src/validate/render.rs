@@ -235,9 +235,7 @@ pub fn html(v: &Validation) -> String {
             s.push_str(&format!("<ul class=\"small\">{}</ul>\n", notes.join("\n")));
         }
         let mut seen: Vec<&str> = Vec::new();
-        s.push_str(
-            "<details><summary class=\"small\">Equations fitted</summary><ul class=\"small\">",
-        );
+        s.push_str("<p class=\"small\"><strong>Equations fitted</strong></p><ul class=\"small\">");
         for c in &rows {
             if !seen.contains(&c.name.as_str()) {
                 seen.push(&c.name);
@@ -248,7 +246,7 @@ pub fn html(v: &Validation) -> String {
                 ));
             }
         }
-        s.push_str("</ul></details>\n");
+        s.push_str("</ul>\n");
     }
     s.push_str("<h2>Sign-off</h2>\n<table><thead><tr><th>Role</th><th>Name</th><th>Signature</th><th>Date</th></tr></thead><tbody><tr><td>Validated by</td><td></td><td></td><td></td></tr><tr><td>Approved by</td><td></td><td></td><td></td></tr></tbody></table>\n");
     s.push_str(&format!(
