@@ -507,9 +507,42 @@ fn predict(
             .map(|u| format!(" {u}"))
             .unwrap_or_default()
     };
-    let mut warnings = curve.warnings();
+    // Warnings of SPEC §14: not accepted, superseded (by the history beside the result's run
+    // folder), outside the calibrated range.
+    let history = result
+        .parent()
+        .and_then(std::path::Path::parent)
+        .map(|d| {
+            crate::history::read(&d.join("history.jsonl"))
+                .map(|(h, _)| h)
+                .unwrap_or_default()
+        })
+        .unwrap_or_default();
+    let mut warnings: Vec<String> = Vec::new();
+    for w in crate::metrology::warnings::predict_warnings(
+        &curve.doc,
+        &history,
+        &crate::metrology::warnings::Reading::At(&[]),
+    ) {
+        if !warnings.contains(&w) {
+            warnings.push(w);
+        }
+    }
+    // Expanded uncertainty (GUM) of each read-off, for one-predictor curves.
+    let gum = crate::metrology::ModelCurve::from_result(&curve.doc)
+        .ok()
+        .map(|c| {
+            let budget = curve
+                .doc
+                .metrology
+                .as_ref()
+                .map(|m| m.budget.clone())
+                .unwrap_or_default();
+            (c, budget)
+        });
     let mut forwards = Vec::new();
     let mut inverses = Vec::new();
+    let mut read_offs: Vec<crate::metrology::ReadOff> = Vec::new();
     if inverse.is_empty() {
         for a in at {
             let point = parse_assignments(a, "--at")?;
@@ -520,7 +553,14 @@ fn predict(
                 }
                 warnings.extend(outside.into_iter().map(|o| format!("{o} (extrapolated)")));
             }
-            forwards.push(curve.forward(&point, level, replicates)?);
+            let f = curve.forward(&point, level, replicates)?;
+            if let (Some((c, budget)), [(_, x)]) = (&gum, point.as_slice())
+                && let Ok(r) =
+                    crate::metrology::read_off::forward(c, *x, Some(replicates), budget, true)
+            {
+                read_offs.push(r);
+            }
+            forwards.push(f);
         }
     } else {
         let given = match at {
@@ -541,11 +581,18 @@ fn predict(
                         .help("repeat --inverse for several readings"),
                 );
             };
-            inverses.push(curve.inverse(name, *value, &given, level, replicates, extrapolate)?);
+            let inv = curve.inverse(name, *value, &given, level, replicates, extrapolate)?;
+            if let Some((c, budget)) = &gum
+                && let Ok(list) =
+                    crate::metrology::read_off::inverse(c, *value, replicates, budget, true)
+            {
+                read_offs.extend(list);
+            }
+            inverses.push(inv);
         }
     }
     if json {
-        let v = serde_json::json!({"result": result.display().to_string(), "run_id": curve.doc.run_id, "verdict": curve.doc.verdict, "warnings": warnings, "forward": forwards, "inverse": inverses});
+        let v = serde_json::json!({"result": result.display().to_string(), "run_id": curve.doc.run_id, "verdict": curve.doc.verdict, "warnings": warnings, "forward": forwards, "inverse": inverses, "uncertainty": read_offs});
         println!(
             "{}",
             serde_json::to_string_pretty(&v).map_err(|e| Error::internal(e.to_string()))?
@@ -613,6 +660,12 @@ fn predict(
         }
         for n in &i.notes {
             println!("    note: {n}");
+        }
+    }
+    if !read_offs.is_empty() {
+        println!("measurement uncertainty (JCGM 100:2008; fit and the recipe's components):");
+        for r in &read_offs {
+            println!("    {}", r.statement(unit(&r.read).trim_start()));
         }
     }
     Ok(0)

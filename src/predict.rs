@@ -426,18 +426,6 @@ impl Curve {
             }
         })
     }
-
-    /// Warnings about the stored result itself (SPEC §14).
-    pub fn warnings(&self) -> Vec<String> {
-        let mut w = Vec::new();
-        if self.doc.verdict != "accepted" {
-            w.push(format!(
-                "this calibration's verdict is \"{}\": read values off it with care",
-                self.doc.verdict_wording
-            ));
-        }
-        w
-    }
 }
 
 /// Parse `NAME=VALUE[,NAME=VALUE…]`.
