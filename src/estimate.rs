@@ -15,7 +15,8 @@ use crate::model::Prepared;
 
 /// The model `f(x; θ)` over the rows of the data, with fixed parameters substituted, as the
 /// Levenberg–Marquardt solver sees it. Output 0 of `tape` is f, output 1 + j is ∂f/∂θⱼ;
-/// `value_tape` computes f alone, for the trial points that need no Jacobian.
+/// `value_tape` computes f alone, for the trial points where the solver needs no Jacobian.
+/// Both compile the same simplified f, so they give the same values to the last bit.
 pub struct TapeModel<'a> {
     tape: MultiTape,
     value_tape: MultiTape,
@@ -243,4 +244,33 @@ pub fn fit_nonlinear(
         stop_reason: out.stop.to_string(),
         has_constant: true,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn value_tape_gives_the_jacobian_tapes_values_to_the_last_bit() {
+        // The solver compares SSR at trial points (value tape) with SSR at accepted points
+        // (the Jacobian tape's output 0); they must be the same function.
+        let eq = expr::parse_equation("y = b1*exp(-b2*x)/(1 + b3*x^2) - sqrt(x + b2)").unwrap();
+        let x: Vec<f64> = (0..37).map(|i| 0.1 + 0.37 * f64::from(i)).collect();
+        let names = ["b1".to_string(), "b2".to_string(), "b3".to_string()];
+        let describe = |row: usize| format!("row {row}");
+        let model =
+            TapeModel::new(&eq.rhs, &["x".to_string()], vec![&x], &names, &describe).unwrap();
+        let theta = [2.5, 0.31, 0.07];
+        let f = model.values(&theta).unwrap();
+        let j = model.jacobian_at(&theta).unwrap();
+        let from_jacobian_tape = model.scratch.borrow().clone();
+        assert_eq!(j.ncols(), 3);
+        for (a, b) in f.iter().zip(&from_jacobian_tape) {
+            assert_eq!(a.to_bits(), b.to_bits());
+        }
+        // And both are the model: b1·e^(−b2·x)/(1 + b3·x²) − √(x + b2) at the first row.
+        let x0 = x[0];
+        let direct = 2.5 * (-0.31 * x0).exp() / (1.0 + 0.07 * x0 * x0) - (x0 + 0.31).sqrt();
+        assert!((f[0] - direct).abs() <= 1e-15 * direct.abs().max(1.0));
+    }
 }
