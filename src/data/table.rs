@@ -13,7 +13,7 @@ use std::ops::Range;
 use std::path::{Path, PathBuf};
 
 use super::files::MatchedFile;
-use super::grid::{Cell, Grid, GridRow, Place, RowAt};
+use super::grid::{CellRef, Grid, GridRow, Place, RowAt};
 use super::number::{NumberFormat, Parsed, bad_number_help, number_label, parse_number};
 use super::{Dataset, LoadedFile, RejectedRow, RowOrigin, SkippedRow, Wanted};
 use crate::error::{Error, Result, did_you_mean};
@@ -67,6 +67,8 @@ pub fn read_all(
         } else {
             let text =
                 super::decode::decode(&bytes, &file.path, spec.encoding.as_ref().map(|e| e.value))?;
+            // The decoded text is kept for messages; the bytes are not needed any more.
+            drop(bytes);
             super::text::read_text(spec, &file.path, text, format)?
         };
         let parsed = extract(recipe, &grid, wanted, lenient)?;
@@ -253,7 +255,10 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     let width = if grid.header.is_some() {
         header.len()
     } else {
-        grid.rows.iter().map(|r| r.cells.len()).max().unwrap_or(0)
+        (0..grid.rows.len())
+            .map(|i| grid.width(i))
+            .max()
+            .unwrap_or(0)
     };
     let mut indices: Vec<Option<usize>> = Vec::new();
     for w in wanted {
@@ -371,11 +376,11 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         reason: reason.to_string(),
         channel: channel.cloned(),
     };
-    'rows: for row in &grid.rows {
+    'rows: for (ri, row) in grid.rows.iter().enumerate() {
         // The channel first: a bad cell is reported under its channel.
         let channel = match &by {
             None => None,
-            Some(b) => match label_cell(grid, row, b, fmt) {
+            Some(b) => match label_cell(grid, ri, b, fmt) {
                 Ok(l) => Some(l),
                 Err(Problem::Missing(reason)) if spec.missing == Missing::Skip => {
                     skipped.push(skip(row, &column_name(header, b.index), reason, None));
@@ -404,7 +409,7 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         };
         let group = match &groups {
             None => None,
-            Some(g) => match label_cell(grid, row, g, fmt) {
+            Some(g) => match label_cell(grid, ri, g, fmt) {
                 Ok(l) => Some(l),
                 Err(Problem::Missing(reason)) if spec.missing == Missing::Skip => {
                     skipped.push(skip(
@@ -431,11 +436,11 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         for (k, &ci) in cols_idx.iter().enumerate() {
             let name = header_names.get(k).map_or("", String::as_str);
             let cell =
-                match row.cells.get(ci) {
+                match grid.cell(ri, ci) {
                     Some(c) => c,
-                    None if is_sheet => &Cell::Empty,
+                    None if is_sheet => CellRef::Empty,
                     None => {
-                        let count = row.cells.len();
+                        let count = grid.width(ri);
                         fail(place.locate(
                         RowAt::Data(row),
                         count,
@@ -533,13 +538,18 @@ fn problem_error(
 }
 
 /// A numeric cell.
-fn number_cell(cell: &Cell, is_sheet: bool, fmt: NumberFormat, name: &str) -> Result<f64, Problem> {
+fn number_cell(
+    cell: CellRef<'_>,
+    is_sheet: bool,
+    fmt: NumberFormat,
+    name: &str,
+) -> Result<f64, Problem> {
     match cell {
-        Cell::Number(v) if v.is_nan() => Err(Problem::Missing("NaN")),
-        Cell::Number(v) if v.is_infinite() => Err(Problem::Missing("infinite value")),
-        Cell::Number(v) => Ok(*v),
-        Cell::Empty => Err(Problem::Missing("empty cell")),
-        Cell::Text(t) if is_sheet => {
+        CellRef::Number(v) if v.is_nan() => Err(Problem::Missing("NaN")),
+        CellRef::Number(v) if v.is_infinite() => Err(Problem::Missing("infinite value")),
+        CellRef::Number(v) => Ok(v),
+        CellRef::Empty => Err(Problem::Missing("empty cell")),
+        CellRef::Text(t) if is_sheet => {
             if t.trim().is_empty() {
                 return Err(Problem::Missing("empty cell"));
             }
@@ -564,7 +574,7 @@ fn number_cell(cell: &Cell, is_sheet: bool, fmt: NumberFormat, name: &str) -> Re
                 },
             })
         }
-        Cell::Text(t) => match parse_number(t, fmt) {
+        CellRef::Text(t) => match parse_number(t, fmt) {
             Parsed::Value(v) => Ok(v),
             Parsed::Missing(reason) => Err(Problem::Missing(reason)),
             Parsed::Bad => Err(Problem::Bad {
@@ -574,11 +584,11 @@ fn number_cell(cell: &Cell, is_sheet: bool, fmt: NumberFormat, name: &str) -> Re
                 }),
             }),
         },
-        Cell::Bool(b) => Err(Problem::Bad {
+        CellRef::Bool(b) => Err(Problem::Bad {
             message: format!("the true/false cell `{b}` in column `{name}` is not a number"),
             help: format!("column `{name}` must hold numbers only; fix or remove this cell"),
         }),
-        Cell::Error(e) => Err(Problem::Bad {
+        CellRef::Error(e) => Err(Problem::Bad {
             message: format!("error value `{e}` in column `{name}`"),
             help: "the cell's formula failed in the workbook; fix it there, or remove the row"
                 .to_string(),
@@ -589,22 +599,22 @@ fn number_cell(cell: &Cell, is_sheet: bool, fmt: NumberFormat, name: &str) -> Re
 /// A label cell (`by`, `groups`): text as written (trimmed), numbers in their shortest form.
 fn label_cell(
     grid: &Grid,
-    row: &GridRow,
+    row: usize,
     col: &LabelColumn,
     fmt: NumberFormat,
 ) -> Result<String, Problem> {
     let name = column_name(grid.header.as_deref().unwrap_or(&[]), col.index);
-    match row.cells.get(col.index).unwrap_or(&Cell::Empty) {
-        Cell::Text(t) if t.trim().is_empty() => Err(Problem::Missing("empty cell")),
-        Cell::Text(t) => Ok(match parse_number(t, fmt) {
+    match grid.cell(row, col.index).unwrap_or(CellRef::Empty) {
+        CellRef::Text(t) if t.trim().is_empty() => Err(Problem::Missing("empty cell")),
+        CellRef::Text(t) => Ok(match parse_number(t, fmt) {
             Parsed::Value(v) if col.numeric_labels => number_label(v),
             _ => t.trim().to_string(),
         }),
-        Cell::Number(v) if v.is_finite() => Ok(number_label(*v)),
-        Cell::Number(_) => Err(Problem::Missing("NaN or infinite value")),
-        Cell::Bool(b) => Ok(b.to_string()),
-        Cell::Empty => Err(Problem::Missing("empty cell")),
-        Cell::Error(e) => Err(Problem::Bad {
+        CellRef::Number(v) if v.is_finite() => Ok(number_label(v)),
+        CellRef::Number(_) => Err(Problem::Missing("NaN or infinite value")),
+        CellRef::Bool(b) => Ok(b.to_string()),
+        CellRef::Empty => Err(Problem::Missing("empty cell")),
+        CellRef::Error(e) => Err(Problem::Bad {
             message: format!("error value `{e}` in the `{}` column `{name}`", col.key),
             help: "the cell's formula failed in the workbook; fix it there, or remove the row"
                 .to_string(),
