@@ -564,6 +564,13 @@ pub fn load(path: &Path) -> Result<Recipe> {
             .in_file(path)
             .help("check the path; recipes are TOML files")
     })?;
+    from_bytes(path, bytes)
+}
+
+/// Check the bytes of a recipe as if read from `path` (which only names the file in messages
+/// and anchors relative paths; nothing is read from disk). A UTF-8 byte-order mark is
+/// skipped; the hash covers every byte, the mark included.
+pub fn from_bytes(path: &Path, bytes: Vec<u8>) -> Result<Recipe> {
     let sha256 = crate::hash::sha256_hex(&bytes);
     let text = match String::from_utf8(bytes) {
         Ok(t) => t,
