@@ -8,7 +8,7 @@ use std::cell::RefCell;
 use nalgebra::DMatrix;
 
 use crate::error::{Error, Result};
-use crate::expr::{self, Expr, MultiTape, Symbols};
+use crate::expr::{self, Expr, MultiTape, Symbols, TapeScratch};
 use crate::fit::linear;
 use crate::fit::lm::{self, Bound, LmOptions, Model as LmModel, ModelError, Observations};
 use crate::model::Prepared;
@@ -16,10 +16,13 @@ use crate::model::Prepared;
 /// The model `f(x; θ)` over the rows of the data, with fixed parameters substituted, as the
 /// Levenberg–Marquardt solver sees it. Output 0 of `tape` is f, output 1 + j is ∂f/∂θⱼ;
 /// `value_tape` computes f alone, for the trial points where the solver needs no Jacobian.
-/// Both compile the same simplified f, so they give the same values to the last bit.
+/// Both compile the same simplified f, so they give the same values to the last bit. Each
+/// keeps its working memory between calls, so the fit's inner loop does not allocate.
 pub struct TapeModel<'a> {
     tape: MultiTape,
     value_tape: MultiTape,
+    work: RefCell<TapeScratch>,
+    value_work: RefCell<TapeScratch>,
     columns: Vec<&'a [f64]>,
     n: usize,
     p: usize,
@@ -49,6 +52,8 @@ impl<'a> TapeModel<'a> {
         Ok(TapeModel {
             tape,
             value_tape,
+            work: RefCell::default(),
+            value_work: RefCell::default(),
             columns,
             n,
             p: free.len(),
@@ -92,7 +97,12 @@ impl LmModel for TapeModel<'_> {
 
     fn eval(&self, params: &[f64], f_out: &mut [f64]) -> std::result::Result<(), ModelError> {
         self.value_tape
-            .eval(&self.columns, params, &mut [f_out])
+            .eval_in(
+                &mut self.value_work.borrow_mut(),
+                &self.columns,
+                params,
+                &mut [f_out],
+            )
             .map_err(|e| self.error(e))
     }
 
@@ -109,7 +119,12 @@ impl LmModel for TapeModel<'_> {
             outs.push(col);
         }
         self.tape
-            .eval(&self.columns, params, &mut outs)
+            .eval_in(
+                &mut self.work.borrow_mut(),
+                &self.columns,
+                params,
+                &mut outs,
+            )
             .map_err(|e| self.error(e))
     }
 }

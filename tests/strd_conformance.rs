@@ -21,7 +21,7 @@ use support::nonlinear_cases::{
     problem, run_all,
 };
 use support::strd_data::strd_dir_or_skip;
-use support::strd_recipe::{compute, prepare, write_recipe};
+use support::strd_recipe::{compute, prepare, write_recipe, write_recipe_with};
 
 struct Results {
     linear: Vec<LinearResult>,
@@ -218,6 +218,42 @@ fn inactive_bounds_leave_the_certified_solution_unchanged() {
 }
 
 #[test]
+fn auto_fits_the_linearizable_problems_without_start_values() {
+    // The default method on the three NIST problems a transform linearizes, with no start
+    // values at all: the linearized fit gives the start, Levenberg–Marquardt refines it in
+    // the original space, and the result must meet the same accuracy as from NIST's starts.
+    let Some(dir) = strd_dir_or_skip("auto_fits_the_linearizable_problems_without_start_values")
+    else {
+        return;
+    };
+    for (name, transform) in [
+        ("DanWood", "ln(y)"),
+        ("Eckerle4", "ln(y)"),
+        ("Misra1d", "1/y"),
+    ] {
+        let prob = problem(&dir, name);
+        let case = write_recipe_with(&prob, None, None, "auto");
+        let doc = compute(&case).unwrap_or_else(|e| panic!("{name}: {}", e.message));
+        assert_eq!(doc.fit.method_used, "linearized+nonlinear", "{name}");
+        assert_eq!(doc.fit.transform.as_deref(), Some(transform), "{name}");
+        assert!(
+            doc.start_fit.is_some(),
+            "{name}: the linearized start is kept"
+        );
+        assert!(doc.fit.converged, "{name}: {}", doc.fit.stop_reason);
+        for (b, c) in doc.parameters.iter().zip(&prob.parameters) {
+            let p = lre(b.value, c.value, c.value_digits);
+            let sd = lre(b.std_error.unwrap_or(f64::NAN), c.std_dev, c.std_dev_digits);
+            assert!(
+                p >= MIN_PARAM_LRE && sd >= MIN_SD_LRE,
+                "{name} {}: parameter LRE {p:.1}, SD LRE {sd:.1}",
+                b.name
+            );
+        }
+    }
+}
+
+#[test]
 fn conformance_table_states_its_command_and_every_fit() {
     let Some(res) = results("conformance_table_states_its_command_and_every_fit") else {
         return;
@@ -232,8 +268,30 @@ fn conformance_table_states_its_command_and_every_fit() {
     assert_eq!(rows, 11 + 54 + 38);
 }
 
+/// The block of README.md that quotes the summary, between these markers.
+const README_START: &str = "<!-- conformance-summary: written by write_conformance_table -->";
+const README_END: &str = "<!-- /conformance-summary -->";
+
+fn readme_path() -> std::path::PathBuf {
+    std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md")
+}
+
 #[test]
-#[ignore = "writes docs/conformance.md; run on demand"]
+fn readme_names_the_commands_and_holds_the_summary_block() {
+    let text = std::fs::read_to_string(readme_path()).expect("README.md is readable");
+    assert!(text.contains(COMMAND), "README.md lacks `{COMMAND}`");
+    assert!(text.contains("cargo bench --bench nist_fits"));
+    let start = text
+        .find(README_START)
+        .expect("README.md has the summary start marker");
+    let end = text
+        .find(README_END)
+        .expect("README.md has the summary end marker");
+    assert!(start < end);
+}
+
+#[test]
+#[ignore = "writes docs/conformance.md and README.md's summary; run on demand"]
 fn write_conformance_table() {
     let Some(res) = results("write_conformance_table") else {
         return;
@@ -242,8 +300,20 @@ fn write_conformance_table() {
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/conformance.md");
     std::fs::write(&path, &text).expect("write docs/conformance.md");
     println!("wrote {}", path.display());
+    let summary = support::conformance_table::summary(&res.linear, &res.nonlinear);
+    let readme = std::fs::read_to_string(readme_path()).expect("README.md is readable");
+    let (Some(start), Some(end)) = (readme.find(README_START), readme.find(README_END)) else {
+        panic!("README.md lacks the markers {README_START} … {README_END}");
+    };
+    let updated = format!(
+        "{}{README_START}\n{}\n\nFull table and reasons: [docs/conformance.md](docs/conformance.md).\n{}",
+        &readme[..start],
+        summary.trim_end(),
+        &readme[end..]
+    );
+    std::fs::write(readme_path(), updated).expect("write README.md");
     println!(
-        "{}",
-        support::conformance_table::summary(&res.linear, &res.nonlinear)
+        "updated the summary in {}\n{summary}",
+        readme_path().display()
     );
 }

@@ -111,6 +111,15 @@ pub struct MultiTape {
     outputs: Vec<Src>,
 }
 
+/// Working memory of an evaluation: the once-per-call values and the row registers. A
+/// caller that evaluates the same tape many times (a fit) keeps one and passes it to
+/// [`MultiTape::eval_in`], so repeated evaluations allocate nothing.
+#[derive(Clone, Debug, Default)]
+pub struct TapeScratch {
+    scalars: Vec<f64>,
+    regs: Vec<Vec<f64>>,
+}
+
 /// One compiled expression.
 #[derive(Clone, Debug)]
 pub struct Tape {
@@ -143,7 +152,13 @@ impl Tape {
         params: &[f64],
         out: &mut [f64],
     ) -> Result<(), EvalError> {
-        self.inner.run(columns, params, &mut [out], false)
+        self.inner.run(
+            &mut TapeScratch::default(),
+            columns,
+            params,
+            &mut [out],
+            false,
+        )
     }
 
     /// Evaluates a filter: one `bool` per row.
@@ -326,11 +341,23 @@ impl MultiTape {
         params: &[f64],
         outs: &mut [&mut [f64]],
     ) -> Result<(), EvalError> {
-        self.run(columns, params, outs, true)
+        self.run(&mut TapeScratch::default(), columns, params, outs, true)
+    }
+
+    /// [`MultiTape::eval`] with working memory kept by the caller between calls.
+    pub fn eval_in(
+        &self,
+        scratch: &mut TapeScratch,
+        columns: &[&[f64]],
+        params: &[f64],
+        outs: &mut [&mut [f64]],
+    ) -> Result<(), EvalError> {
+        self.run(scratch, columns, params, outs, true)
     }
 
     fn run(
         &self,
+        scratch: &mut TapeScratch,
         columns: &[&[f64]],
         params: &[f64],
         outs: &mut [&mut [f64]],
@@ -366,12 +393,22 @@ impl MultiTape {
                 "data columns and outputs must all have the same number of rows".to_string(),
             ));
         }
-        let scalars = self.scalars(params);
+        self.scalars(params, &mut scratch.scalars);
+        let scalars = scratch.scalars.as_slice();
         let scalars_bad = self
             .scalar_order
             .iter()
             .any(|&i| !scalars[i as usize].is_finite());
-        let mut regs: Vec<Vec<f64>> = vec![vec![0.0; CHUNK.min(rows.max(1))]; self.registers];
+        let width = CHUNK.min(rows.max(1));
+        let regs = &mut scratch.regs;
+        if regs.len() < self.registers {
+            regs.resize(self.registers, Vec::new());
+        }
+        for r in regs.iter_mut() {
+            if r.len() < width {
+                r.resize(width, 0.0);
+            }
+        }
         let mut lo = 0;
         while lo < rows {
             let hi = (lo + CHUNK).min(rows);
@@ -380,8 +417,8 @@ impl MultiTape {
             for ins in &self.program {
                 let mut out = std::mem::take(&mut regs[ins.out as usize]);
                 {
-                    let a = operand(ins.a, &regs, columns, &scalars, lo, hi);
-                    let b = operand(ins.b, &regs, columns, &scalars, lo, hi);
+                    let a = operand(ins.a, regs, columns, scalars, lo, hi);
+                    let b = operand(ins.b, regs, columns, scalars, lo, hi);
                     exec(ins.op, &mut out[..len], a, b);
                 }
                 if checked && !bad && !all_finite(&out[..len]) {
@@ -391,7 +428,7 @@ impl MultiTape {
             }
             for (k, src) in self.outputs.iter().enumerate() {
                 let dest = &mut outs[k][lo..hi];
-                match operand(*src, &regs, columns, &scalars, lo, hi) {
+                match operand(*src, regs, columns, scalars, lo, hi) {
                     V::S(s) => dest.copy_from_slice(s),
                     V::C(c) => dest.fill(c),
                 }
@@ -404,8 +441,10 @@ impl MultiTape {
         Ok(())
     }
 
-    fn scalars(&self, params: &[f64]) -> Vec<f64> {
-        let mut vals = vec![0.0; self.keys.len()];
+    /// The once-per-call values, into `vals` (indexed by key).
+    fn scalars(&self, params: &[f64], vals: &mut Vec<f64>) {
+        vals.clear();
+        vals.resize(self.keys.len(), 0.0);
         for &i in &self.scalar_order {
             vals[i as usize] = match self.keys[i as usize] {
                 Key::Const(bits) => f64::from_bits(bits),
@@ -419,7 +458,6 @@ impl MultiTape {
                 }
             };
         }
-        vals
     }
 
     /// Re-evaluates rows `lo..hi` with the checked reference evaluator and returns the

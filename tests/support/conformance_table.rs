@@ -108,6 +108,9 @@ pub fn summary(linear: &[LinearResult], nonlinear: &[(NonlinearCase, NonlinearRe
             failures.join("; ")
         }
     );
+    for e in ERRATA {
+        let _ = writeln!(w, "- Erratum, {}: {}.", e.problem, one_line(e.note));
+    }
     w
 }
 
@@ -126,7 +129,10 @@ pub fn render(linear: &[LinearResult], nonlinear: &[(NonlinearCase, NonlinearRes
          tape-compiled model with exact symbolic Jacobian, fit and statistics as `fitwright run`. \
          The figures are read from the result document (`parameters[].value`, \
          `parameters[].std_error`, `statistics.std_error`, `statistics.r_squared`, \
-         `statistics.ssr`).\n"
+         `statistics.ssr`). The default method `auto` is checked too: DanWood, Eckerle4 (both \
+         `ln(y)`) and Misra1d (`1/y`), with no start values, get their start from the linearized \
+         fit and meet the same thresholds after refinement \
+         (`auto_fits_the_linearizable_problems_without_start_values`).\n"
     );
     let _ = writeln!(
         w,

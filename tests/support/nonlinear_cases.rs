@@ -119,7 +119,8 @@ pub const ERRATA: [Erratum; 1] = [Erratum {
     param: 0,
     corrected: 0.201_968_663_96,
     note: "b1 printed as 1.20196866396; with the principal branch of arctan the file's own \
-           certified RSS is reproduced only by b1 − 1 = 0.20196866396, which is scored",
+           certified RSS is reproduced only by b1 − 1 = 0.20196866396, which is scored (NIST's \
+           web page for Roszman1 gives 2.0196866396E-01, from memory)",
 }];
 
 pub fn erratum(problem: &str, param: usize) -> Option<&'static Erratum> {

@@ -98,23 +98,39 @@ pub struct RecipeCase {
     pub translated: Translated,
 }
 
-/// Write `<name>.csv` and `recipe.toml` for a problem; `start` is 1 or 2 for nonlinear
-/// problems (ignored for linear ones). `bounds` adds `min`/`max` to each parameter.
+/// Write `data.csv` and `recipe.toml` for a problem; `start` is 1 or 2 for nonlinear
+/// problems (ignored for linear ones), with `method = "linear"` or `"nonlinear"` by the
+/// problem's kind. `bounds` adds `min`/`max` to each parameter.
 pub fn write_recipe(p: &StrdProblem, start: usize, bounds: Option<&[(f64, f64)]>) -> RecipeCase {
+    let method = match p.kind {
+        StrdKind::Linear => "linear",
+        StrdKind::Nonlinear => "nonlinear",
+    };
+    write_recipe_with(p, Some(start), bounds, method)
+}
+
+/// [`write_recipe`] with the method given, and no start values when `start` is None.
+pub fn write_recipe_with(
+    p: &StrdProblem,
+    start: Option<usize>,
+    bounds: Option<&[(f64, f64)]>,
+    method: &str,
+) -> RecipeCase {
     let dir = tempfile::tempdir().expect("temporary folder");
     let translated = translate(p);
     let csv = dir.path().join("data.csv");
     std::fs::write(&csv, csv_text(p, &translated)).expect("write the data file");
     let mut toml = String::new();
     let _ = writeln!(toml, "name = \"nist-{}\"", p.name.to_lowercase());
-    let _ = writeln!(toml, "title = \"NIST StRD {} (start {start})\"", p.name);
+    let starting = start.map_or("no start values".to_string(), |s| format!("start {s}"));
+    let _ = writeln!(toml, "title = \"NIST StRD {} ({starting})\"", p.name);
     let _ = writeln!(toml, "\n[data]\nfiles = [\"data.csv\"]\n");
     let _ = writeln!(toml, "[model]\nequation = \"{}\"", translated.equation);
     let _ = writeln!(toml, "[model.parameters]");
     for (j, c) in p.parameters.iter().enumerate() {
         let mut keys = Vec::new();
-        if let Some(s) = c.starts {
-            keys.push(format!("start = {:?}", s[start - 1]));
+        if let (Some(s), Some(k)) = (c.starts, start) {
+            keys.push(format!("start = {:?}", s[k - 1]));
         }
         if let Some((lo, hi)) = bounds.and_then(|b| b.get(j)) {
             keys.push(format!("min = {lo:?}"));
@@ -122,10 +138,6 @@ pub fn write_recipe(p: &StrdProblem, start: usize, bounds: Option<&[(f64, f64)]>
         }
         let _ = writeln!(toml, "{} = {{ {} }}", c.name, keys.join(", "));
     }
-    let method = match p.kind {
-        StrdKind::Linear => "linear",
-        StrdKind::Nonlinear => "nonlinear",
-    };
     let _ = writeln!(toml, "\n[fit]\nmethod = \"{method}\"");
     let _ = writeln!(toml, "\n[report]\nformats = [\"json\"]");
     let recipe = dir.path().join("recipe.toml");

@@ -433,3 +433,38 @@ fn constant_folding_that_would_overflow_keeps_the_numbers() {
         assert!(parse_expression(&canon(src)).is_ok());
     }
 }
+
+#[test]
+fn reused_scratch_gives_the_values_of_a_fresh_evaluation() {
+    // One scratch passed to tapes of different sizes, over different row counts (one row,
+    // several chunks, a few rows) and after a domain error: every result is the fresh one.
+    let small = MultiTape::compile(&[p("a*x + 1")], &Symbols::new(&["x"], &["a"])).unwrap();
+    let large = MultiTape::model_and_jacobian(
+        &p("a*exp(-b*x)/(1 + c*x^2) + sqrt(x + b)"),
+        &Symbols::new(&["x"], &["a", "b", "c"]),
+    )
+    .unwrap();
+    let mut scratch = TapeScratch::default();
+    let check = |tape: &MultiTape, scratch: &mut TapeScratch, x: &[f64], params: &[f64]| {
+        let k = tape.exprs().len();
+        let mut a = vec![vec![0.0; x.len()]; k];
+        let mut b = a.clone();
+        let mut ra: Vec<&mut [f64]> = a.iter_mut().map(|v| v.as_mut_slice()).collect();
+        let mut rb: Vec<&mut [f64]> = b.iter_mut().map(|v| v.as_mut_slice()).collect();
+        let fresh = tape.eval(&[x], params, &mut ra);
+        let reused = tape.eval_in(scratch, &[x], params, &mut rb);
+        assert_eq!(fresh.is_ok(), reused.is_ok());
+        let bits = |v: &[Vec<f64>]| -> Vec<Vec<u64>> {
+            v.iter()
+                .map(|c| c.iter().map(|x| x.to_bits()).collect())
+                .collect()
+        };
+        assert_eq!(bits(&a), bits(&b));
+    };
+    let many: Vec<f64> = (0..tape::CHUNK * 2 + 5).map(|i| i as f64 * 0.01).collect();
+    check(&large, &mut scratch, &many, &[2.0, 0.5, 0.1]);
+    check(&small, &mut scratch, &[3.0], &[1.5]);
+    check(&large, &mut scratch, &[-4.0, 1.0], &[2.0, 0.5, 0.1]);
+    check(&large, &mut scratch, &[0.0, 1.0, 2.0], &[1.0, 0.25, 0.3]);
+    check(&small, &mut scratch, &many, &[-0.5]);
+}
