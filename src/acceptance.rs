@@ -204,6 +204,19 @@ fn row(
     }
 }
 
+/// R² as a measure: NaN stands for "not defined", when the total sum of squares is zero
+/// (every response value equal, or their spread below the floating-point range), which no
+/// limit can be judged against.
+fn r_squared_measure(v: f64) -> Measure {
+    if v.is_nan() {
+        Measure::NotApplicable(
+            "R² is not defined: the response does not vary (its total sum of squares is 0)".into(),
+        )
+    } else {
+        Measure::Value(v)
+    }
+}
+
 /// Judge the measures against the recipe's criteria: the rows in recipe order, then the verdict.
 pub fn judge(acc: &Acceptance, m: &Measures) -> (Vec<CriterionRow>, Verdict) {
     let mut rows = Vec::new();
@@ -216,7 +229,7 @@ pub fn judge(acc: &Acceptance, m: &Measures) -> (Vec<CriterionRow>, Verdict) {
                 m.r_squared_label.clone(),
                 "≥",
                 l,
-                &Measure::Value(m.r_squared),
+                &r_squared_measure(m.r_squared),
                 true,
             ),
             "adj_r_squared_min" => row(
@@ -224,7 +237,7 @@ pub fn judge(acc: &Acceptance, m: &Measures) -> (Vec<CriterionRow>, Verdict) {
                 "adjusted R²",
                 "≥",
                 l,
-                &Measure::Value(m.adj_r_squared),
+                &r_squared_measure(m.adj_r_squared),
                 true,
             ),
             "std_error_max" => row(
@@ -482,6 +495,28 @@ mod tests {
         assert_eq!(rows.len(), 4);
         assert!(rows.iter().all(|r| r.status == Status::Pass), "{rows:?}");
         assert_eq!(verdict, Verdict::Accepted);
+    }
+
+    #[test]
+    fn undefined_r_squared_is_not_applicable_rather_than_nan() {
+        let f = |_: &[(String, f64)]| Ok(0.0);
+        let mut m = measures(&f);
+        m.r_squared = f64::NAN;
+        m.adj_r_squared = f64::NAN;
+        let mut acc = Acceptance::default();
+        acc.global.push((sp("r_squared_min".into()), sp(0.9)));
+        acc.global.push((sp("adj_r_squared_min".into()), sp(0.9)));
+        let (rows, verdict) = judge(&acc, &m);
+        for r in &rows {
+            assert_eq!(r.status, Status::NotApplicable, "{r:?}");
+            assert_eq!(r.measured, "—");
+            assert!(
+                r.note
+                    .as_deref()
+                    .is_some_and(|n| n.contains("does not vary"))
+            );
+        }
+        assert_eq!(verdict, Verdict::Rejected);
     }
 
     #[test]

@@ -133,6 +133,66 @@ impl std::ops::Deref for Error {
     }
 }
 
+/// Longest message, note or help printed, in characters; the rest is cut with `…` (a cell
+/// or a key can hold megabytes of text, which a message must not repeat).
+const MAX_TEXT_CHARS: usize = 500;
+/// Widest quoted source line, in characters; longer lines show a window around the caret.
+const MAX_LINE_CHARS: usize = 120;
+
+/// User text made safe to print on a terminal: control characters (a NUL, an escape
+/// sequence, a newline inside a cell) are shown escaped, as `\u{1b}` or `\n`, never
+/// sent raw; the text is cut at [`MAX_TEXT_CHARS`].
+fn printable(text: &str) -> String {
+    let mut out = String::new();
+    for (i, c) in text.chars().enumerate() {
+        if i == MAX_TEXT_CHARS {
+            out.push('…');
+            break;
+        }
+        if c.is_control() {
+            out.extend(c.escape_default());
+        } else {
+            out.push(c);
+        }
+    }
+    out
+}
+
+/// The quoted line and the caret's (column, width), both 0-based in characters of the
+/// returned text: control characters become one `�` each (so the caret stays aligned, a tab
+/// one space), and a line longer than [`MAX_LINE_CHARS`] is cut to a window around the
+/// caret with `…` at the cut ends.
+fn quoted_line(l: &Location) -> (String, usize, usize) {
+    let chars: Vec<char> = l
+        .line_text
+        .chars()
+        .map(|c| match c {
+            '\t' => ' ',
+            c if c.is_control() => '\u{fffd}',
+            c => c,
+        })
+        .collect();
+    let column = l.column.saturating_sub(1).min(chars.len());
+    let width = l.width.max(1);
+    if chars.len() <= MAX_LINE_CHARS {
+        return (chars.into_iter().collect(), column, width);
+    }
+    let start = column.saturating_sub(MAX_LINE_CHARS / 3);
+    let end = (start + MAX_LINE_CHARS).min(chars.len());
+    let mut shown = String::new();
+    let mut caret = column - start;
+    if start > 0 {
+        shown.push('…');
+        caret += 1;
+    }
+    shown.extend(chars.get(start..end).unwrap_or_default());
+    if end < chars.len() {
+        shown.push('…');
+    }
+    let width = width.min(end.saturating_sub(column)).max(1);
+    (shown, caret, width)
+}
+
 impl fmt::Display for Error {
     /// ```text
     /// error: recipes/probe.toml:12:1: unknown key `confidense` in [fit]
@@ -145,23 +205,24 @@ impl fmt::Display for Error {
             ErrorKind::Internal => "internal error",
             _ => "error",
         };
+        let message = printable(&self.message);
         match self.position() {
-            Some(p) => writeln!(f, "{label}: {p}: {}", self.message)?,
-            None => writeln!(f, "{label}: {}", self.message)?,
+            Some(p) => writeln!(f, "{label}: {}: {message}", printable(&p))?,
+            None => writeln!(f, "{label}: {message}")?,
         }
         if let Some(l) = &self.location {
             let number = l.line.to_string();
             let pad = " ".repeat(number.len());
-            let shown: String = l.line_text.replace('\t', " ");
+            let (shown, column, width) = quoted_line(l);
             writeln!(f, "  {number} | {shown}")?;
-            let before = " ".repeat(l.column.saturating_sub(1));
-            writeln!(f, "  {pad} | {before}{}", "^".repeat(l.width.max(1)))?;
+            let before = " ".repeat(column);
+            writeln!(f, "  {pad} | {before}{}", "^".repeat(width))?;
         }
         for n in &self.notes {
-            writeln!(f, "  note: {n}")?;
+            writeln!(f, "  note: {}", printable(n))?;
         }
         if let Some(h) = &self.help {
-            writeln!(f, "  help: {h}")?;
+            writeln!(f, "  help: {}", printable(h))?;
         }
         if self.kind == ErrorKind::Internal {
             writeln!(
@@ -213,6 +274,52 @@ mod tests {
         );
         assert_eq!(closest("Temp_C", ["temp_c", "resistance"]), Some("temp_c"));
         assert_eq!(closest("zzz", ["confidence", "method"]), None);
+    }
+
+    fn at(line_text: &str, column: usize, width: usize) -> Error {
+        Error::input("bad").at(Location {
+            path: PathBuf::from("r.toml"),
+            line: 7,
+            column,
+            width,
+            line_text: line_text.to_string(),
+        })
+    }
+
+    #[test]
+    fn control_characters_are_never_printed_raw() {
+        let e = at("name = \"h\u{0}\u{1b}[31m\"", 10, 1)
+            .note("cell `3\n4` has\u{7} a bell")
+            .help("key `\u{1b}]0;title\u{7}`");
+        let text = e.to_string();
+        assert!(
+            !text.chars().any(|c| c.is_control() && c != '\n'),
+            "{text:?}"
+        );
+        assert!(text.contains("name = \"h\u{fffd}\u{fffd}[31m\""), "{text}");
+        assert!(text.contains("cell `3\\n4` has\\u{7} a bell"), "{text}");
+        // The caret stays under the tenth character.
+        assert!(text.contains("\n    |          ^\n"), "{text}");
+    }
+
+    #[test]
+    fn long_lines_are_cut_to_a_window_around_the_caret() {
+        let line = format!("equation = \"{}\"", "x+".repeat(50_000));
+        let e = at(&line, 90_000, 5);
+        let text = e.to_string();
+        assert!(text.len() < 1_000, "{} bytes", text.len());
+        let lines: Vec<&str> = text.lines().collect();
+        let quoted = lines[1].trim_start_matches("  7 | ");
+        let caret = lines[2].trim_start_matches("    | ");
+        assert!(quoted.starts_with('…') && quoted.ends_with('…'), "{quoted}");
+        // The caret points at character 90,000 of the line: the same character in the window.
+        let shown: Vec<char> = quoted.chars().collect();
+        let col = caret.find('^').expect("caret");
+        assert_eq!(shown[col], line.chars().nth(89_999).expect("in line"));
+        assert_eq!(caret.trim().len(), 5);
+        // A long message is cut too.
+        let long = Error::input("y".repeat(10_000)).to_string();
+        assert!(long.chars().count() < 600 && long.contains('…'));
     }
 
     #[test]

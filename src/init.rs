@@ -208,13 +208,9 @@ pub fn write_starter(
     model: &StarterModel,
     data: Option<&Path>,
 ) -> Result<PathBuf> {
-    if name.is_empty()
-        || !name
-            .chars()
-            .all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || matches!(c, '.' | '_' | '-'))
-    {
+    if !crate::recipe::valid_name(name) {
         return Err(Error::usage(format!("`{name}` is not a valid recipe name"))
-            .help("use lower-case letters, digits, `.`, `_` and `-`"));
+            .help("use lower-case letters, digits, `.`, `_` and `-`, not starting with `.`"));
     }
     let target = dir.join(format!("{name}.toml"));
     if target.exists() {

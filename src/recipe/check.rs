@@ -88,15 +88,10 @@ pub fn check_recipe(raw: RawRecipe, sha256: String) -> Result<Recipe> {
             .in_file(&source.path)
             .help("add a line such as `name = \"probe-a7\"` at the top; it names the output folder")
     })?;
-    if name.value.is_empty()
-        || !name
-            .value
-            .chars()
-            .all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || matches!(c, '.' | '_' | '-'))
-    {
+    if !super::valid_name(&name.value) {
         return Err(root
             .error(name.span.clone(), format!("the name `{}` is not allowed", name.value))
-            .help("use lower-case letters, digits, `.`, `_` and `-` only (it names the output folder)"));
+            .help("use lower-case letters, digits, `.`, `_` and `-` only, not starting with `.` (it names the output folder)"));
     }
     let title = root.string("title")?.map(|s| s.value);
     let notes = root.string("notes")?.map(|s| s.value);

@@ -557,6 +557,17 @@ pub struct ReportSpec {
     pub supersedes: Option<String>,
 }
 
+/// Whether `name` may name a recipe: `[a-z0-9._-]+` (SPEC §2), not starting with `.`. The
+/// name becomes a folder under the report folder, so `.` and `..` would put runs and history
+/// beside or above it, and any other leading dot would hide them.
+pub fn valid_name(name: &str) -> bool {
+    !name.is_empty()
+        && !name.starts_with('.')
+        && name
+            .chars()
+            .all(|c| c.is_ascii_lowercase() || c.is_ascii_digit() || matches!(c, '.' | '_' | '-'))
+}
+
 /// Read and check one recipe file.
 pub fn load(path: &Path) -> Result<Recipe> {
     let bytes = std::fs::read(path).map_err(|e| {
