@@ -499,8 +499,7 @@ mod tests {
 
     #[test]
     fn undefined_r_squared_is_not_applicable_rather_than_nan() {
-        let f = |_: &[(String, f64)]| Ok(0.0);
-        let mut m = measures(&f);
+        let mut m = measures();
         m.r_squared = f64::NAN;
         m.adj_r_squared = f64::NAN;
         let mut acc = Acceptance::default();

@@ -11,8 +11,13 @@
 //! has one is re-evaluated row by row with the checked reference evaluator, which names
 //! the row and the sub-expression (and decides, with its short-circuit `&&`/`||`, whether
 //! the value really mattered).
+//!
+//! From [`PARALLEL_FROM`] rows on, blocks of whole chunks run in parallel on the rayon pool
+//! (the batch's pool when called from a batch), with the same values as one pass.
 
 use std::collections::HashMap;
+
+use rayon::prelude::*;
 
 use super::ast::{AddOp, CmpOp, Expr, ExprKind, Func, LogicOp, MulOp};
 use super::error::{EvalError, ExprError};
@@ -393,6 +398,59 @@ impl MultiTape {
                 "data columns and outputs must all have the same number of rows".to_string(),
             ));
         }
+        let parts = parallel_parts(rows);
+        if parts <= 1 {
+            return self.run_rows(scratch, columns, params, outs, checked);
+        }
+        // Large inputs: contiguous blocks of whole chunks on the rayon pool. Each row is
+        // computed by the same instructions as in one pass (the ops are elementwise and the
+        // chunk boundaries do not move), so the values are identical; the first error in row
+        // order is reported.
+        let per = rows.div_ceil(parts).div_ceil(CHUNK) * CHUNK;
+        let mut rest: Vec<&mut [f64]> = outs.iter_mut().map(|o| &mut **o).collect();
+        let mut jobs = Vec::with_capacity(parts);
+        let mut lo = 0;
+        while lo < rows {
+            let len = per.min(rows - lo);
+            let mut mine = Vec::with_capacity(rest.len());
+            for r in rest.iter_mut() {
+                let (a, b) = std::mem::take(r).split_at_mut(len);
+                mine.push(a);
+                *r = b;
+            }
+            let cols: Vec<&[f64]> = columns.iter().map(|c| &c[lo..lo + len]).collect();
+            jobs.push((lo, cols, mine));
+            lo += len;
+        }
+        let results: Vec<Result<(), EvalError>> = jobs
+            .into_par_iter()
+            .map(|(lo, cols, mut outs)| {
+                self.run_rows(
+                    &mut TapeScratch::default(),
+                    &cols,
+                    params,
+                    &mut outs,
+                    checked,
+                )
+                .map_err(|e| EvalError {
+                    row: e.row + lo,
+                    ..e
+                })
+            })
+            .collect();
+        results.into_iter().collect()
+    }
+
+    /// [`MultiTape::run`] on one thread (shapes already checked).
+    fn run_rows(
+        &self,
+        scratch: &mut TapeScratch,
+        columns: &[&[f64]],
+        params: &[f64],
+        outs: &mut [&mut [f64]],
+        checked: bool,
+    ) -> Result<(), EvalError> {
+        let rows = outs.first().map_or(0, |o| o.len());
         self.scalars(params, &mut scratch.scalars);
         let scalars = scratch.scalars.as_slice();
         let scalars_bad = self
@@ -493,6 +551,19 @@ impl MultiTape {
         }
         Ok(())
     }
+}
+
+/// Rows from which evaluation is split across the rayon pool: below, one thread is faster
+/// than handing out work (about 32 chunks; common practice, not tuned per machine).
+const PARALLEL_FROM: usize = 32 * CHUNK;
+
+/// Into how many blocks to split `rows` rows: up to four per pool thread, each at least
+/// [`PARALLEL_FROM`]/2 rows.
+fn parallel_parts(rows: usize) -> usize {
+    if rows < PARALLEL_FROM {
+        return 1;
+    }
+    (rayon::current_num_threads() * 4).min(rows / (PARALLEL_FROM / 2))
 }
 
 fn all_finite(xs: &[f64]) -> bool {

@@ -229,6 +229,40 @@ fn tape_covers_more_rows_than_one_chunk() {
     }
 }
 
+#[test]
+fn tape_split_across_threads_gives_the_same_values_and_the_first_bad_row() {
+    // 300,017 rows: well above the row count from which blocks run in parallel.
+    let n = 300_017;
+    let x: Vec<f64> = (0..n).map(|i| 1.0 + i as f64 * 1e-3).collect();
+    let e = p("a*exp(-b*x) + c*ln(x)");
+    let symbols = Symbols::new(&["x"], &["a", "b", "c"]);
+    let tape = MultiTape::model_and_jacobian(&e, &symbols).unwrap();
+    let params = [2.0, 0.3, 0.5];
+    let mut outs = vec![vec![0.0; n]; 4];
+    let mut refs: Vec<&mut [f64]> = outs.iter_mut().map(|o| o.as_mut_slice()).collect();
+    tape.eval(&[&x], &params, &mut refs).unwrap();
+    // The same rows in slices below the parallel threshold, one chunk at a time.
+    for lo in (0..n).step_by(tape::CHUNK) {
+        let hi = (lo + tape::CHUNK).min(n);
+        let mut small = vec![vec![0.0; hi - lo]; 4];
+        let mut refs: Vec<&mut [f64]> = small.iter_mut().map(|o| o.as_mut_slice()).collect();
+        tape.eval(&[&x[lo..hi]], &params, &mut refs).unwrap();
+        for k in 0..4 {
+            assert_eq!(
+                &outs[k][lo..hi],
+                small[k].as_slice(),
+                "output {k}, rows {lo}..{hi}"
+            );
+        }
+    }
+    // Bad rows in two blocks: the earlier one is reported, with its row in the whole input.
+    let mut bad = x.clone();
+    bad[250_000] = -1.0;
+    bad[170_001] = 0.0;
+    let e = eval_err("ln(x)", &["x"], &[&bad], &[], &[]);
+    assert_eq!((e.row, e.subexpr.as_str()), (170_001, "ln(x)"));
+}
+
 fn eval_err(
     src: &str,
     vars: &[&str],
