@@ -210,14 +210,25 @@ pub fn summary_table(outcomes: &[RunOutcome]) -> String {
         ));
     }
     let count = |v: Verdict| outcomes.iter().filter(|o| o.verdict == v).count();
+    // Output and internal failures carry the verdict `invalid` (no result) but are not
+    // invalid recipes: count them apart, so the summary agrees with the exit code.
+    let failed_outputs = outcomes.iter().filter(|o| o.exit_code >= 3).count();
     s.push_str(&format!(
-        "{} result{}: {} criteria met (awaiting review), {} not met, {} not judged, {} invalid\n",
+        "{} result{}: {} criteria met (awaiting review), {} not met, {} not judged, {} invalid{}\n",
         outcomes.len(),
         if outcomes.len() == 1 { "" } else { "s" },
         count(Verdict::Accepted),
         count(Verdict::Rejected),
         count(Verdict::NotJudged),
-        count(Verdict::Invalid)
+        count(Verdict::Invalid) - failed_outputs.min(count(Verdict::Invalid)),
+        if failed_outputs > 0 {
+            format!(
+                ", {failed_outputs} output or internal failure{}",
+                if failed_outputs == 1 { "" } else { "s" }
+            )
+        } else {
+            String::new()
+        }
     ));
     if count(Verdict::NotJudged) > 0 {
         s.push_str("warning: recipes without [acceptance] criteria are not judged; add criteria to judge them\n");

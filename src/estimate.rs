@@ -186,15 +186,25 @@ pub fn fit_linear_model(
     let y = prep.y();
     let p = names.len();
     let zeros = vec![0.0; p];
-    let h0 = model
-        .values(&zeros)
-        .map_err(|e| Error::input(format!("the model cannot be evaluated: {e}")))?;
-    let design = model
-        .jacobian_at(&zeros)
-        .map_err(|e| Error::input(format!("the model cannot be evaluated: {e}")))?;
+    // The basis of a linear model does not depend on the parameters: a value it cannot take
+    // on a row stays whatever the fit does.
+    let unevaluable = |e: ModelError| {
+        Error::input(format!("the model cannot be evaluated: {e}")).help(
+            "a term of the model is not finite on that row whatever the parameters: \
+             rescale the predictor (another unit) or change the model",
+        )
+    };
+    let h0 = model.values(&zeros).map_err(unevaluable)?;
+    let design = model.jacobian_at(&zeros).map_err(unevaluable)?;
     let target: Vec<f64> = y.iter().zip(&h0).map(|(a, b)| a - b).collect();
     let fit = linear::fit_linear(&design, &target, prep.weights.as_deref(), names).map_err(|e| {
-        Error::input(format!("the linear fit failed: {e}")).help("a design with dependent basis functions cannot be fitted: remove a parameter or add data that separates them")
+        let mut err = Error::input(format!("the linear fit failed: {e}")).help("a design with dependent basis functions cannot be fitted: remove a parameter or add data that separates them");
+        if matches!(e, linear::LinearError::RankDeficient { .. } | linear::LinearError::ZeroColumn { .. }) {
+            for note in predictor_notes(prep) {
+                err = err.note(note);
+            }
+        }
+        err
     })?;
     let fitted: Vec<f64> = fit.fitted.iter().zip(&h0).map(|(a, b)| a + b).collect();
     let residuals: Vec<f64> = y.iter().zip(&fitted).map(|(a, b)| a - b).collect();
@@ -217,6 +227,93 @@ pub fn fit_linear_model(
     })
 }
 
+/// Facts about the predictor columns that explain a singular or ill-conditioned design: a
+/// predictor that does not vary, one with subnormal values (too small to scale), or one whose
+/// offset dwarfs its spread, so that its powers and products lose their digits to
+/// cancellation (then the model should be written in the centred predictor).
+pub fn predictor_notes(prep: &Prepared) -> Vec<String> {
+    let mut notes = Vec::new();
+    for (name, col) in prep.model.predictors.iter().zip(prep.x()) {
+        let finite = col.iter().copied().filter(|v| v.is_finite());
+        let (lo, hi) = finite.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
+            (lo.min(v), hi.max(v))
+        });
+        if lo > hi {
+            continue;
+        }
+        if lo == hi {
+            notes.push(format!(
+                "`{name}` has the same value ({}) on every row",
+                crate::expr::print::format_number(lo)
+            ));
+        } else if col.iter().any(|v| v.is_subnormal()) {
+            notes.push(format!(
+                "`{name}` holds subnormal values (below {:.1e} in magnitude), too small to \
+                 scale: express it in a smaller unit, so that its numbers are larger",
+                f64::MIN_POSITIVE
+            ));
+        } else {
+            let (mid, spread) = (lo / 2.0 + hi / 2.0, hi - lo);
+            if mid.abs() > 1e3 * spread {
+                // A round number near the data: any value close to them removes the offset.
+                let step = 10f64.powi(mid.abs().log10().floor() as i32 - 3);
+                let centre = (mid.abs() / step).floor() * step;
+                let shifted = if mid > 0.0 {
+                    format!("{name} - {}", crate::expr::print::format_number(centre))
+                } else {
+                    format!("{name} + {}", crate::expr::print::format_number(centre))
+                };
+                notes.push(format!(
+                    "`{name}` lies between {} and {}: its offset is {:.1e} times its spread, so \
+                     its powers and products lose their digits to cancellation; write the model \
+                     in `{shifted}`",
+                    crate::expr::print::format_number_short(lo),
+                    crate::expr::print::format_number_short(hi),
+                    mid.abs() / spread
+                ));
+            }
+        }
+    }
+    notes
+}
+
+/// The fit statistics could not be computed: a value outside the range of 64-bit floats
+/// (about ±1.8·10³⁰⁸) named by its data row, or the error as it is.
+pub fn statistics_error(prep: &Prepared, e: crate::fit::covariance::CovarianceError) -> Error {
+    use crate::fit::covariance::CovarianceError;
+    match e {
+        CovarianceError::NonFinite { what, row } => Error::input(format!(
+            "the fit statistics cannot be computed: the {what} is not finite at {}",
+            prep.data.describe_row(row)
+        ))
+        .help(
+            "the data or the model leave the range of 64-bit floats (about ±1.8e308) in the fit; \
+             express the columns in another unit so that their values are moderate",
+        ),
+        e => Error::input(format!("the fit statistics cannot be computed: {e}"))
+            .help("check the data for constant or degenerate columns"),
+    }
+}
+
+/// A warning when the scaled Jacobian at the solution is so ill-conditioned that the
+/// parameters may keep fewer than about 6 significant digits (κ·ε > 10⁻⁶, ε = 2.2·10⁻¹⁶;
+/// the error bound κ·ε of Golub & Van Loan §5.3, from memory — the threshold is common
+/// practice: reports show 6 significant digits).
+pub fn conditioning_warning(prep: &Prepared, condition: Option<f64>) -> Option<String> {
+    let k = condition.filter(|k| k.is_finite() && k * f64::EPSILON > 1e-6)?;
+    let mut text = format!(
+        "the fit is ill-conditioned: the condition number of the scaled Jacobian is {k:.1e}, \
+         so about {} of the 16 significant digits of the parameters can be lost to rounding; \
+         the parameters are nearly interchangeable on these data (see their correlations)",
+        k.log10().round()
+    );
+    for n in predictor_notes(prep) {
+        text.push_str("; ");
+        text.push_str(&n);
+    }
+    Some(text)
+}
+
 /// Levenberg–Marquardt in the original space from `start`.
 pub fn fit_nonlinear(
     prep: &Prepared,
@@ -236,6 +333,19 @@ pub fn fit_nonlinear(
         .with_xtol(tolerance)
         .and_then(|o| o.with_ftol(tolerance))
         .map_err(|e| Error::input(format!("[fit] tolerance: {e}")))?;
+    // A model that does not respond to any parameter at the start (every derivative zero on
+    // every row, as when exp(−b·x) underflows to 0) gives the solver no direction to move.
+    if let Ok(j) = model.jacobian_at(start)
+        && !j.is_empty()
+        && j.iter().all(|v| *v == 0.0)
+    {
+        return Err(Error::input(
+            "the nonlinear fit cannot start: the model does not change with any parameter at \
+             the start values (every derivative is zero on every row, as when an exponential \
+             underflows to 0)",
+        )
+        .help("choose start values at which the model responds to its parameters, e.g. a smaller rate in exp(-b*x)"));
+    }
     let obs = Observations {
         y: prep.y(),
         weights: prep.weights.as_deref(),

@@ -71,17 +71,38 @@ fn out_err(path: &Path, e: &std::io::Error) -> Error {
         .help("check that the report folder is writable (or run with --no-history)")
 }
 
+/// The history's place cannot be read: a file where a folder of the path must be (`--out`
+/// naming a file), a folder where the history must be, or no permission. All concern the
+/// output location, so they are output failures (exit 3), named plainly.
+fn unreadable(path: &Path, e: &std::io::Error) -> Error {
+    let blocking_file = path
+        .ancestors()
+        .skip(1)
+        .find(|a| !a.as_os_str().is_empty() && a.exists() && !a.is_dir());
+    if let Some(file) = blocking_file {
+        return Error::output(format!(
+            "the report folder cannot be used: `{}` is a file, not a folder",
+            file.display()
+        ))
+        .help("give a folder to --out or [report] dir, or move the file away");
+    }
+    if path.is_dir() {
+        return Error::output("the history is a folder, not a file")
+            .in_file(path)
+            .help("history.jsonl must be a file; move the folder away");
+    }
+    Error::output(format!("cannot read the history: {e}"))
+        .in_file(path)
+        .help("check the permissions of the report folder and its history.jsonl")
+}
+
 /// Every readable line of a history file, oldest first, plus warnings for unreadable lines.
 /// A missing file is an empty history.
 pub fn read(path: &Path) -> Result<(Vec<HistoryLine>, Vec<String>)> {
     let text = match std::fs::read_to_string(path) {
         Ok(t) => t,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok((Vec::new(), Vec::new())),
-        Err(e) => {
-            return Err(Error::input(format!("cannot read the history: {e}"))
-                .in_file(path)
-                .help("check the file's permissions"));
-        }
+        Err(e) => return Err(unreadable(path, &e)),
     };
     let mut lines = Vec::new();
     let mut warnings = Vec::new();

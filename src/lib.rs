@@ -5,6 +5,10 @@
 //! reports. [`cli`] is the command line over it; `main.rs` only calls [`cli::main`].
 #![cfg_attr(not(test), deny(clippy::unwrap_used))]
 
+// First, so that its `print!`-family macros are in scope in every module below.
+#[macro_use]
+pub mod stdout;
+
 pub mod acceptance;
 pub mod analysis;
 pub mod batch;

@@ -10,5 +10,12 @@ fn main() {
     unsafe {
         libc::signal(libc::SIGPIPE, libc::SIG_DFL);
     }
-    std::process::exit(fitwright::cli::main());
+    let mut code = fitwright::cli::main();
+    // Output that could not be written (a full disk behind `> log.txt`) is an output failure.
+    if let Some(failure) = fitwright::stdout::finish() {
+        use std::io::Write;
+        let _ = writeln!(std::io::stderr(), "error: {failure}");
+        code = code.max(3);
+    }
+    std::process::exit(code);
 }

@@ -520,6 +520,21 @@ fn finish(recipe: &Recipe, plan: &Plan<'_>, mut ds: Dataset) -> Result<Prepared>
             ds.skipped.len()
         ));
     }
+    // Subnormal numbers (0 < |v| < 2.2e-308) keep fewer significant digits, and their
+    // squares and products underflow to 0: sums of squares, R² and scaling lose them.
+    for var in std::iter::once(&model.response).chain(&model.predictors) {
+        if ds
+            .column(var)
+            .is_some_and(|c| c.iter().any(|v| v.is_subnormal()))
+        {
+            warnings.push(format!(
+                "column `{var}` holds values below {:.1e} in magnitude (subnormal), which keep \
+                 fewer significant digits and whose squares underflow to 0; express it in a \
+                 smaller unit, so that its numbers are larger",
+                f64::MIN_POSITIVE
+            ));
+        }
+    }
     Ok(Prepared {
         model,
         data: ds,

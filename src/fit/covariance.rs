@@ -98,6 +98,10 @@ pub struct ParameterUncertainty {
     pub correlation: DMatrix<f64>,
     /// θⱼ ± quantile·SEⱼ.
     pub intervals: Vec<Option<(f64, f64)>>,
+    /// 2-norm condition number κ of the column-scaled W½J of the estimated parameters, when
+    /// the uncertainty was computed from a Jacobian: about log₁₀ κ of the ~16 significant
+    /// digits of the parameters can be lost to rounding (Golub & Van Loan §5.3, from memory).
+    pub condition: Option<f64>,
 }
 
 /// Pointwise confidence and prediction band at one point x₀.
@@ -422,6 +426,7 @@ pub fn uncertainty_from_jacobian<S: AsRef<str>>(
     }
     let name = |j: usize| names[j].as_ref().to_string();
     let mut unscaled = DMatrix::zeros(p, p);
+    let mut condition = None;
     if !free.is_empty() {
         let sq = dense::scaled_qr(a).map_err(|e| match e {
             ScaledQrError::ZeroColumn(k) => CovarianceError::NoEffect {
@@ -436,6 +441,7 @@ pub fn uncertainty_from_jacobian<S: AsRef<str>>(
                 condition,
             },
         })?;
+        condition = Some(sq.condition);
         let g = sq
             .inverse_gram()
             .ok_or_else(|| CovarianceError::Dependent {
@@ -449,7 +455,9 @@ pub fn uncertainty_from_jacobian<S: AsRef<str>>(
         }
     }
     let estimated: Vec<bool> = at_bound.iter().map(|b| !b).collect();
-    uncertainty_from_unscaled(&unscaled, params, &estimated, n, ssr, settings)
+    let mut u = uncertainty_from_unscaled(&unscaled, params, &estimated, n, ssr, settings)?;
+    u.condition = condition;
+    Ok(u)
 }
 
 /// Parameter uncertainty from an unscaled covariance (JᵀWJ)⁻¹ already computed, e.g.
@@ -536,6 +544,7 @@ pub fn uncertainty_from_unscaled(
         rel_std_errors,
         correlation,
         intervals,
+        condition: None,
     })
 }
 

@@ -50,6 +50,7 @@ fn check_prepared(recipe: &Recipe, prep: &crate::model::Prepared) -> Result<Stri
 /// recipe with `by`, where a channel with bad data is invalid on its own).
 pub fn check(path: &Path) -> Result<Checked> {
     let recipe = recipe::load(path)?;
+    report::Templates::load(recipe.report.templates.as_deref()).map_err(report_error)?;
     if recipe.data.by.is_some() {
         let set = crate::model::prepare_channels(&recipe)?;
         let files = set.files.len();
@@ -149,8 +150,25 @@ pub fn inputs_hash(recipe_sha: &str, data: &[String]) -> String {
 }
 
 fn report_error(e: report::ReportError) -> Error {
+    if is_user_template_error(&e) {
+        return Error::input(format!("the report template cannot be used: {e}"))
+            .help("fix the template named above, or remove it from the templates folder to use the built-in one");
+    }
     Error::output(format!("the report cannot be produced: {e}"))
         .help("fix the template or the output folder named above")
+}
+
+/// A template from the recipe's `[report] templates` folder (or the folder itself) is at
+/// fault: the recipe's input, so the run is invalid (exit 2), not an output failure.
+fn is_user_template_error(e: &report::ReportError) -> bool {
+    use report::ReportErrorKind as K;
+    match e.kind() {
+        K::TemplateSyntax { file, .. } | K::TemplateRender { file, .. } => {
+            !file.starts_with("built-in")
+        }
+        K::Io { action, .. } => action.contains("template"),
+        _ => false,
+    }
 }
 
 /// Load, fit, judge and render one recipe — everything except writing.
@@ -218,6 +236,8 @@ pub fn compute_prepared(
             .or_insert_with(|| unit.clone());
     }
     let analysis = solve::analyse(&recipe, &prep)?;
+    let mut prep = prep;
+    solve::drop_invalid_rows(&recipe, &mut prep, &analysis)?;
     let solved = solve::solve(&recipe, &prep, &analysis)?;
     let diag = diagnostics::compute(&recipe, &prep, &solved);
     let start_diag = solved

@@ -65,12 +65,8 @@ pub fn assess(
     let w = prep.weights.as_deref();
     let p = names.len();
     let statistics =
-        covariance::fit_statistics(y, w, &est.fitted, p, est.has_constant, mode(recipe)).map_err(
-            |e| {
-                Error::input(format!("the fit statistics cannot be computed: {e}"))
-                    .help("check the data for constant or degenerate columns")
-            },
-        )?;
+        covariance::fit_statistics(y, w, &est.fitted, p, est.has_constant, mode(recipe))
+            .map_err(|e| estimate::statistics_error(prep, e))?;
     let settings = UncertaintySettings {
         mode: mode(recipe),
         confidence: recipe.fit.confidence,
@@ -79,7 +75,9 @@ pub fn assess(
         Error::input(format!("the parameter uncertainty cannot be computed: {e}"))
             .help("parameters that cannot be told apart on these data need more or different data, or one of them fixed")
     })?;
-    let mut warnings = Vec::new();
+    let mut warnings: Vec<String> = estimate::conditioning_warning(prep, uncertainty.condition)
+        .into_iter()
+        .collect();
     for (i, b) in est.at_bound.iter().enumerate() {
         if *b {
             warnings.push(format!(
@@ -200,6 +198,75 @@ pub fn violated_conditions(prep: &Prepared, lin: &Linearization) -> Vec<(String,
         }
     }
     out
+}
+
+/// `drop_invalid = true` with an explicit transform (SPEC §2, §13): the rows where the
+/// transform's data conditions fail are left out of the fit, each listed in a warning. The
+/// rows go before anything is fitted, so every later stage sees the same rows. Too few rows
+/// left is an input error.
+pub fn drop_invalid_rows(recipe: &Recipe, prep: &mut Prepared, analysis: &Analysis) -> Result<()> {
+    let explicit = matches!(recipe.fit.transform, TransformSpec::Expr(_));
+    if !explicit || !recipe.fit.drop_invalid || recipe.fit.method == Method::Nonlinear {
+        return Ok(());
+    }
+    let Some(lin) = analysis
+        .working()
+        .first()
+        .and_then(|c| c.outcome.linearization())
+    else {
+        return Ok(());
+    };
+    let broken = violated_conditions(prep, lin);
+    let mut rows: Vec<usize> = broken.iter().flat_map(|(_, r)| r.iter().copied()).collect();
+    rows.sort_unstable();
+    rows.dedup();
+    if rows.is_empty() {
+        return Ok(());
+    }
+    let conditions: Vec<&str> = broken.iter().map(|(c, _)| c.as_str()).collect();
+    let warning = format!(
+        "{} row{} left out because the transform {} is undefined there (`drop_invalid = true`; {}): {}",
+        rows.len(),
+        if rows.len() == 1 { "" } else { "s" },
+        lin.transform,
+        conditions.join("; "),
+        prep.data.describe_rows(&rows, 20)
+    );
+    let mut keep = vec![true; prep.data.len()];
+    for &r in &rows {
+        if let Some(k) = keep.get_mut(r) {
+            *k = false;
+        }
+    }
+    prep.data.retain(&keep);
+    if let Some(w) = prep.weights.as_mut() {
+        let mut i = 0;
+        w.retain(|_| {
+            let k = keep.get(i).copied().unwrap_or(true);
+            i += 1;
+            k
+        });
+    }
+    let free = prep.model.free().len();
+    if prep.data.len() < free + 1 {
+        let span = match &recipe.fit.transform {
+            TransformSpec::Expr(t) => t.span.clone(),
+            _ => recipe.fit.span.clone(),
+        };
+        return Err(recipe
+            .error_at(
+                span,
+                format!(
+                    "after leaving out the rows where the transform {} is undefined, {} row{} remain for {free} free parameters",
+                    lin.transform,
+                    prep.data.len(),
+                    if prep.data.len() == 1 { "" } else { "s" }
+                ),
+            )
+            .help("fix the data, or use a transform that is defined on them"));
+    }
+    prep.warnings.push(warning);
+    Ok(())
 }
 
 /// Evaluate a data-only expression (transform, basis function, weight factor) on every row.

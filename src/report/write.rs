@@ -11,6 +11,7 @@
 //! `<dir>`. Readers therefore see either no run folder or a complete one. On
 //! an error the temporary folder is removed; after a crash it may remain as
 //! a hidden `.<run-id>.tmp` (never mistaken for a report, and removed by the
+//! next write into the same folder once it is an hour old, or at once by the
 //! next write of the same run id). An existing run folder is never
 //! overwritten.
 
@@ -201,6 +202,39 @@ fn sync_dir(dir: &Path) -> Result<()> {
     Ok(())
 }
 
+/// Age after which a temporary run folder is taken to be left by a crashed or killed run:
+/// writing a run takes seconds, so an hour leaves a wide margin for a run that is still
+/// writing in another process (common practice for stale lock and temporary files).
+const STALE_TEMPORARY_SECS: u64 = 3600;
+
+/// Removes `.<run-id>.tmp` folders in `dir` older than [`STALE_TEMPORARY_SECS`] (best
+/// effort: a folder that cannot be removed is left; readers ignore hidden folders anyway).
+fn remove_stale_temporaries(dir: &Path) {
+    let Ok(entries) = fs::read_dir(dir) else {
+        return;
+    };
+    for entry in entries.flatten() {
+        let name = entry.file_name();
+        let Some(id) = name
+            .to_str()
+            .and_then(|n| n.strip_prefix('.'))
+            .and_then(|n| n.strip_suffix(".tmp"))
+        else {
+            continue;
+        };
+        let stale = entry
+            .metadata()
+            .ok()
+            .filter(|m| m.is_dir())
+            .and_then(|m| m.modified().ok())
+            .and_then(|t| t.elapsed().ok())
+            .is_some_and(|age| age.as_secs() > STALE_TEMPORARY_SECS);
+        if stale && check_run_id(id).is_ok() {
+            let _ = fs::remove_dir_all(entry.path());
+        }
+    }
+}
+
 /// Writes a run into `<dir>/<run_id>/` atomically (see the module docs) and
 /// returns the run folder. `dir` is created when missing.
 pub fn write_run(dir: &Path, run_id: &str, files: &RunFiles) -> Result<PathBuf> {
@@ -212,6 +246,7 @@ pub fn write_run(dir: &Path, run_id: &str, files: &RunFiles) -> Result<PathBuf> 
             path: target,
         }));
     }
+    remove_stale_temporaries(dir);
     let tmp = dir.join(format!(".{run_id}.tmp"));
     if tmp.exists() {
         // Left by a crashed earlier write of this same run id.

@@ -225,3 +225,18 @@ fn two_hundred_thousand_row_file_runs() {
 fn ten_million_row_file_runs() {
     large_run(10_000_000);
 }
+
+#[test]
+fn a_hundred_thousand_columns_are_read() {
+    let mut text: String = (0..100_000).map(|i| format!("c{i},")).collect();
+    text.push_str("x,y\n");
+    for row in LINE.lines().skip(1) {
+        text.push_str(&"0,".repeat(100_000));
+        text.push_str(row);
+        text.push('\n');
+    }
+    let (c, _) = line_case(text.as_bytes());
+    c.run(&["check", "r.toml"])
+        .expect_code(0)
+        .expect_contains(&["8 rows from 1 file"]);
+}

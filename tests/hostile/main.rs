@@ -11,9 +11,11 @@ mod util;
 
 mod data;
 mod equation;
+mod kill;
 mod numeric;
 mod output;
 mod recipe_file;
+mod templates;
 mod transform_weights;
 
 use std::path::{Path, PathBuf};
@@ -172,7 +174,7 @@ pub fn assert_nothing_written(c: &Case) {
             let name = p.file_name().and_then(|n| n.to_str()).unwrap_or("");
             name == "history.jsonl"
                 || name == "result.json"
-                || name.starts_with("report.")
+                || (name.starts_with("report.") && !name.ends_with(".j2"))
                 || name.ends_with(".tmp")
                 || is_run_id(name.trim_start_matches('.'))
         })

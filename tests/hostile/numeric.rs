@@ -152,3 +152,110 @@ fn constant_response_makes_r_squared_not_applicable_not_nan() {
         .expect_contains(&["n/a", "R² is not defined: the response does not vary"]);
     assert!(!out.stdout.contains("NaN"), "{}", out.stdout);
 }
+
+#[test]
+fn constant_predictor_is_named_when_the_design_is_singular() {
+    let c = Recipe::line().case("x,y\n3,5\n3,6\n3,7\n3,5\n3,5.5\n");
+    refused(
+        &c,
+        &[
+            "linearly dependent",
+            "`x` has the same value (3) on every row",
+        ],
+    );
+}
+
+#[test]
+fn exp_underflow_everywhere_at_the_start_is_a_clear_error() {
+    let r = Recipe::line()
+        .equation("y = a*exp(-b*x)")
+        .params(&["a = { start = 1 }", "b = { start = 1000 }"])
+        .fit("method = \"nonlinear\"");
+    let c = r.case("x,y\n1,1\n2,0.6\n3,0.35\n4,0.2\n5,0.12\n");
+    refused(
+        &c,
+        &[
+            "does not change with any parameter at the start values",
+            "underflow",
+            "start",
+        ],
+    );
+}
+
+#[test]
+fn nearly_collinear_basis_is_fitted_with_a_conditioning_warning() {
+    // z differs from x by one part in 10¹¹: the two slopes are barely separable.
+    let mut text = String::from("x,y,z\n");
+    for i in 1..=12 {
+        let x = i as f64;
+        let z = x * (1.0 + if i % 2 == 0 { 1e-11 } else { -1e-11 });
+        text.push_str(&format!(
+            "{x},{},{z:.17e}\n",
+            0.5 + 2.0 * x + 0.01 * (i % 3) as f64
+        ));
+    }
+    let r = Recipe::line()
+        .equation("y = a + b*x + c*z")
+        .params(&["a = {}", "b = {}", "c = {}"]);
+    let c = r.case(&text);
+    let out = c.run(&["run", "r.toml"]);
+    assert!(matches!(out.code, 0 | 1), "{out:?}");
+    out.expect_contains(&["warning:", "condition number", "significant digits"]);
+}
+
+#[test]
+fn overflow_in_a_linear_basis_is_a_clear_error() {
+    let r = Recipe::line().equation("y = a + b*exp(x)");
+    let c = r.case("x,y\n1,1\n10,2\n100,3\n1000,4\n");
+    refused(
+        &c,
+        &["inf (overflow)", "exp(x)", "line 5 of d.csv", "help:"],
+    );
+}
+
+#[test]
+fn quadratic_at_a_large_offset_says_to_centre_the_predictor() {
+    let mut text = String::from("x,y\n");
+    for i in 0..20 {
+        let d = i as f64 * 1e-3;
+        text.push_str(&format!(
+            "{:.6},{:.6}\n",
+            1e6 + d,
+            3.0 + 2.0 * d + 40.0 * d * d
+        ));
+    }
+    let r = Recipe::line()
+        .equation("y = a + b*x + c*x^2")
+        .params(&["a = {}", "b = {}", "c = {}"]);
+    let c = r.case(&text);
+    refused(&c, &["linearly dependent", "x - 1000000"]);
+}
+
+#[test]
+fn subnormal_predictors_that_cannot_be_scaled_are_named() {
+    let c = Recipe::line().case("x,y\n1e-310,1\n2e-310,3\n3e-310,5\n4e-310,7.1\n");
+    refused(&c, &["linearly dependent", "`x`", "subnormal"]);
+}
+
+#[test]
+fn subnormal_responses_are_fitted_with_a_warning() {
+    let c = Recipe::line().case("x,y\n1,4e-320\n2,5e-320\n3,7e-320\n4,8e-320\n5,9.5e-320\n");
+    let out = c.run(&["run", "r.toml"]);
+    out.expect_code(1).expect_contains(&[
+        "warning: column `y` holds values below 2.2e-308 in magnitude (subnormal)",
+    ]);
+}
+
+#[test]
+fn values_near_the_top_of_the_float_range_give_a_clear_message() {
+    let c = Recipe::line().case("x,y\n1,1e308\n2,1.5e308\n3,1.7e308\n4,1.1e308\n");
+    refused(
+        &c,
+        &[
+            "not finite",
+            "line 2 of d.csv",
+            "range of 64-bit floats",
+            "unit",
+        ],
+    );
+}

@@ -66,7 +66,7 @@ fn full_disk_leaves_no_half_report_and_no_history_line() {
     let c = Recipe::line().case(LINE);
     run_with_no_file_space(&c, &["run", "r.toml"])
         .expect_code(3)
-        .expect_contains(&["File too large", "output or internal failure"]);
+        .expect_contains(&["File too large", "0 invalid, 1 output or internal failure"]);
     assert_nothing_written(&c);
     // A later run with space writes a complete run and one history line.
     c.run(&["run", "r.toml"]).expect_code(0);
@@ -84,4 +84,93 @@ fn full_disk_behind_the_junit_file_is_an_output_error() {
     c.run(&["run", "r.toml", "--junit", "junit"])
         .expect_code(3)
         .expect_contains(&["junit"]);
+}
+
+#[test]
+fn full_standard_output_is_an_output_error_not_a_panic() {
+    let c = Recipe::line().case(LINE);
+    let full = std::fs::OpenOptions::new()
+        .write(true)
+        .open("/dev/full")
+        .expect("/dev/full");
+    let out = Command::new(env!("CARGO_BIN_EXE_fitwright"))
+        .args(["run", "r.toml"])
+        .current_dir(c.dir.path())
+        .stdout(std::process::Stdio::from(full))
+        .output()
+        .expect("run");
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(!stderr.contains("panicked"), "{stderr}");
+    assert_eq!(out.status.code(), Some(3), "{stderr}");
+    assert!(
+        stderr.contains("cannot write to standard output"),
+        "{stderr}"
+    );
+}
+
+#[test]
+fn history_that_is_a_folder_is_an_output_error() {
+    let c = Recipe::line().case(LINE);
+    std::fs::create_dir_all(c.path("out/history.jsonl")).expect("mkdir");
+    c.run(&["run", "r.toml"])
+        .expect_code(3)
+        .expect_contains(&["history", "is a folder"]);
+    assert!(run_folders(&c.path("out")).is_empty());
+}
+
+#[test]
+fn out_pointing_at_a_file_is_an_output_error() {
+    let c = Recipe::line().case(LINE);
+    c.file("taken", "a file, not a folder\n");
+    c.run(&["run", "r.toml", "--out", "taken"])
+        .expect_code(3)
+        .expect_contains(&[
+            "`taken` is a file, not a folder",
+            "0 invalid, 1 output or internal failure",
+        ]);
+    assert_nothing_written(&c);
+    assert_eq!(
+        std::fs::read_to_string(c.path("taken")).expect("still there"),
+        "a file, not a folder\n"
+    );
+}
+
+#[test]
+fn report_dir_inside_a_file_is_an_output_error() {
+    let r = Recipe::line().report("formats = [\"json\"]");
+    let text = r.text().replace("dir = \"out\"", "dir = \"taken/{name}\"");
+    let c = Case::new();
+    c.file("r.toml", &text)
+        .file("d.csv", LINE)
+        .file("taken", "x\n");
+    c.run(&["run", "r.toml"])
+        .expect_code(3)
+        .expect_contains(&["`taken` is a file, not a folder"]);
+    assert_nothing_written(&c);
+}
+
+#[test]
+fn stale_temporary_run_folders_are_ignored_and_cleaned() {
+    let c = Recipe::line().case(LINE);
+    let stale = c.path("out/.20200101T000000Z-deadbeef.tmp");
+    let fresh = c.path("out/.20200101T000001Z-cafef00d.tmp");
+    for d in [&stale, &fresh] {
+        std::fs::create_dir_all(d.join("plots")).expect("mkdir");
+        std::fs::write(d.join("report.html"), "<html>half").expect("write");
+    }
+    // A crash two hours ago left `stale`; `fresh` may belong to a run still writing.
+    let two_hours_ago = std::time::SystemTime::now() - std::time::Duration::from_secs(7200);
+    std::fs::File::open(&stale)
+        .and_then(|f| f.set_modified(two_hours_ago))
+        .expect("age the stale folder");
+    c.run(&["run", "r.toml"]).expect_code(0);
+    assert!(
+        !stale.exists(),
+        "a temporary folder older than an hour is removed"
+    );
+    assert!(
+        fresh.exists(),
+        "a recent one is left to the run that may own it"
+    );
+    assert_eq!(run_folders(&c.path("out")).len(), 1);
 }

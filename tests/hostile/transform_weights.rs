@@ -146,3 +146,16 @@ fn weights_column_with_text_is_located_in_the_data() {
     let c = r.case("x,y,u\n0,0.02,0.1\n1,1.98,0.1\n2,4.03,n/a\n3,5.97,0.1\n");
     refused(&c, &["d.csv:4:", "`n/a`", "column `u`"]);
 }
+
+#[test]
+fn ln_of_a_negative_response_with_drop_invalid_leaves_the_row_out_and_says_so() {
+    let r = exp_recipe("ln(y)").fit("drop_invalid = true");
+    let c = r.case(EXP_DATA);
+    let out = c.run(&["run", "r.toml"]);
+    assert!(matches!(out.code, 0 | 1), "{out:?}");
+    out.expect_contains(&[
+        "warning: 1 row left out because the transform ln(y) is undefined there",
+        "line 3 of d.csv",
+        "· n 5",
+    ]);
+}
