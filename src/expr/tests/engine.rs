@@ -248,7 +248,11 @@ fn tape_split_across_threads_gives_the_same_values_and_the_first_bad_row() {
         let mut refs: Vec<&mut [f64]> = small.iter_mut().map(|o| o.as_mut_slice()).collect();
         tape.eval(&[&x[lo..hi]], &params, &mut refs).unwrap();
         for k in 0..4 {
-            assert_eq!(&outs[k][lo..hi], small[k].as_slice(), "output {k}, rows {lo}..{hi}");
+            assert_eq!(
+                &outs[k][lo..hi],
+                small[k].as_slice(),
+                "output {k}, rows {lo}..{hi}"
+            );
         }
     }
     // Bad rows in two blocks: the earlier one is reported, with its row in the whole input.
