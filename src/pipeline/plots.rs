@@ -56,6 +56,84 @@ pub fn plots(
     warnings: &mut Vec<String>,
 ) -> Vec<Plot> {
     let mut out = Vec::new();
+    // The normal probability plot sorts every residual: it is drawn beside the others.
+    let (normal, ()) = rayon::join(
+        || normal_plot(prep, solved),
+        || curve_and_residual_plots(recipe, prep, solved, &mut out, warnings),
+    );
+    push(
+        &mut out,
+        warnings,
+        "normal-probability",
+        "Normal probability plot of residuals".into(),
+        None,
+        normal,
+    );
+    if !history.is_empty() {
+        for (i, name) in solved.names.iter().enumerate() {
+            let mut runs: Vec<TrendPoint> = history
+                .iter()
+                .filter_map(|h| {
+                    h.parameters.get(name).map(|p| TrendPoint {
+                        label: h.run_id.chars().take(8).collect(),
+                        value: p.value,
+                        std_error: p.std_error,
+                        current: false,
+                    })
+                })
+                .collect();
+            runs.push(TrendPoint {
+                label: "this run".into(),
+                value: solved.estimate.params.get(i).copied().unwrap_or(f64::NAN),
+                std_error: solved.uncertainty.std_errors.get(i).copied().flatten(),
+                current: true,
+            });
+            let limits = recipe
+                .acceptance
+                .parameters
+                .iter()
+                .find(|(n, _)| n.value == *name)
+                .map(|(_, c)| {
+                    (
+                        c.min.as_ref().map(|v| v.value),
+                        c.max.as_ref().map(|v| v.value),
+                    )
+                });
+            let input = TrendPlot {
+                runs: &runs,
+                y_axis: AxisLabel::new(
+                    name.clone(),
+                    prep.model
+                        .parameters
+                        .iter()
+                        .find(|p| p.name == *name)
+                        .and_then(|p| p.unit.as_deref()),
+                ),
+                min: limits.and_then(|l| l.0),
+                max: limits.and_then(|l| l.1),
+            };
+            push(
+                &mut out,
+                warnings,
+                &format!("trend-{}", slug(name)),
+                format!("{name} over the history"),
+                Some("value ± one standard error per run; limits of the recipe where given".into()),
+                plot::trend_plot(&input),
+            );
+        }
+    }
+    out
+}
+
+/// The data with the fitted curve and its bands, and the residuals against each predictor and
+/// against the fitted values.
+fn curve_and_residual_plots(
+    recipe: &Recipe,
+    prep: &Prepared,
+    solved: &Solved,
+    out: &mut Vec<Plot>,
+    warnings: &mut Vec<String>,
+) {
     let y = prep.y();
     let x = prep.x();
     let resp = &prep.model.response;
@@ -116,7 +194,7 @@ pub fn plots(
                 if !unweighted {
                     caption.push_str("; no prediction band: a weighted fit needs the variance of a new reading, which the weights do not give here");
                 }
-                push(&mut out, warnings, "fit", format!("Data and fitted curve of {resp}"), Some(caption), plot::fit_plot(&input));
+                push(out, warnings, "fit", format!("Data and fitted curve of {resp}"), Some(caption), plot::fit_plot(&input));
             }
             None => warnings.push("the fitted curve could not be evaluated across the calibrated range; the data plot is left out".into()),
         }
@@ -133,7 +211,7 @@ pub fn plots(
             ),
         };
         push(
-            &mut out,
+            out,
             warnings,
             &format!("residuals-{}", slug(name)),
             format!("Residuals against {name}"),
@@ -155,13 +233,21 @@ pub fn plots(
         ),
     };
     push(
-        &mut out,
+        out,
         warnings,
         "residuals-fitted",
         "Residuals against fitted values".into(),
         None,
         plot::residual_plot(&input),
     );
+}
+
+/// The normal probability plot of the (Pearson) residuals.
+fn normal_plot(
+    prep: &Prepared,
+    solved: &Solved,
+) -> Result<RenderedPlot, crate::report::ReportError> {
+    let res = &solved.estimate.residuals;
     let pearson: Vec<f64> = match &prep.weights {
         Some(w) => res.iter().zip(w).map(|(e, w)| e * w.sqrt()).collect(),
         None => res.clone(),
@@ -177,68 +263,7 @@ pub fn plots(
             None,
         ),
     };
-    push(
-        &mut out,
-        warnings,
-        "normal-probability",
-        "Normal probability plot of residuals".into(),
-        None,
-        plot::normal_probability_plot(&input),
-    );
-    if !history.is_empty() {
-        for (i, name) in solved.names.iter().enumerate() {
-            let mut runs: Vec<TrendPoint> = history
-                .iter()
-                .filter_map(|h| {
-                    h.parameters.get(name).map(|p| TrendPoint {
-                        label: h.run_id.chars().take(8).collect(),
-                        value: p.value,
-                        std_error: p.std_error,
-                        current: false,
-                    })
-                })
-                .collect();
-            runs.push(TrendPoint {
-                label: "this run".into(),
-                value: solved.estimate.params.get(i).copied().unwrap_or(f64::NAN),
-                std_error: solved.uncertainty.std_errors.get(i).copied().flatten(),
-                current: true,
-            });
-            let limits = recipe
-                .acceptance
-                .parameters
-                .iter()
-                .find(|(n, _)| n.value == *name)
-                .map(|(_, c)| {
-                    (
-                        c.min.as_ref().map(|v| v.value),
-                        c.max.as_ref().map(|v| v.value),
-                    )
-                });
-            let input = TrendPlot {
-                runs: &runs,
-                y_axis: AxisLabel::new(
-                    name.clone(),
-                    prep.model
-                        .parameters
-                        .iter()
-                        .find(|p| p.name == *name)
-                        .and_then(|p| p.unit.as_deref()),
-                ),
-                min: limits.and_then(|l| l.0),
-                max: limits.and_then(|l| l.1),
-            };
-            push(
-                &mut out,
-                warnings,
-                &format!("trend-{}", slug(name)),
-                format!("{name} over the history"),
-                Some("value ± one standard error per run; limits of the recipe where given".into()),
-                plot::trend_plot(&input),
-            );
-        }
-    }
-    out
+    plot::normal_probability_plot(&input)
 }
 
 /// A plot-file-safe form of a variable name.
