@@ -248,9 +248,9 @@ fn normal_plot(
     solved: &Solved,
 ) -> Result<RenderedPlot, crate::report::ReportError> {
     let res = &solved.estimate.residuals;
-    let pearson: Vec<f64> = match &prep.weights {
+    let pearson: std::borrow::Cow<'_, [f64]> = match &prep.weights {
         Some(w) => res.iter().zip(w).map(|(e, w)| e * w.sqrt()).collect(),
-        None => res.clone(),
+        None => res.as_slice().into(),
     };
     let input = NormalPlot {
         residuals: &pearson,
