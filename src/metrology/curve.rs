@@ -256,6 +256,7 @@ impl ModelCurve {
             rel_std_errors: vec![None; p],
             intervals: vec![None; p],
             std_errors,
+            condition: None,
         };
         let range = doc
             .data
@@ -467,6 +468,7 @@ pub(crate) mod tests {
             rel_std_errors: vec![None, None],
             correlation: DMatrix::identity(2, 2),
             intervals: vec![None, None],
+            condition: None,
         };
         ModelCurve::new(CurveSpec {
             response: "y",

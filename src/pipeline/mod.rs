@@ -239,17 +239,29 @@ pub fn compute_prepared(
     let mut prep = prep;
     solve::drop_invalid_rows(&recipe, &mut prep, &analysis)?;
     let solved = solve::solve(&recipe, &prep, &analysis)?;
-    let diag = diagnostics::compute(&recipe, &prep, &solved);
-    let start_diag = solved
-        .start
-        .as_ref()
-        .map(|s| diagnostics::compute(&recipe, &prep, s));
     let (mut history, mut warnings) = history::read(&dir.join("history.jsonl"))?;
     if let Some(before) = &settings.history_before
         && let Some(i) = history.iter().position(|h| h.run_id == *before)
     {
         history.truncate(i);
     }
+    // The diagnostics and the plots only read the fit: on large data sets each takes a
+    // noticeable share of the run, so they run side by side.
+    let ((diag, start_diag), (plots, plot_warnings)) = rayon::join(
+        || {
+            let diag = diagnostics::compute(&recipe, &prep, &solved);
+            let start_diag = solved
+                .start
+                .as_ref()
+                .map(|s| diagnostics::compute(&recipe, &prep, s));
+            (diag, start_diag)
+        },
+        || {
+            let mut plot_warnings = Vec::new();
+            let plots = plots::plots(&recipe, &prep, &solved, &history, &mut plot_warnings);
+            (plots, plot_warnings)
+        },
+    );
     let baseline = history::last_accepted(&history, None).map(|h| Baseline {
         run_id: h.run_id.clone(),
         params: h
@@ -291,8 +303,6 @@ pub fn compute_prepared(
             "the recipe has no [acceptance] criteria: this run is not judged".into(),
         );
     }
-    let mut plot_warnings = Vec::new();
-    let plots = plots::plots(&recipe, &prep, &solved, &history, &mut plot_warnings);
     warnings.extend(plot_warnings);
     let mut doc = outputs::result_doc(
         &recipe,

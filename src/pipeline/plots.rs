@@ -56,6 +56,87 @@ pub fn plots(
     warnings: &mut Vec<String>,
 ) -> Vec<Plot> {
     let mut out = Vec::new();
+    // The normal probability plot sorts every residual: it is drawn beside the others.
+    let (normal, ()) = rayon::join(
+        || normal_plot(prep, solved),
+        || curve_and_residual_plots(recipe, prep, solved, &mut out, warnings),
+    );
+    push(
+        &mut out,
+        warnings,
+        "normal-probability",
+        "Normal probability plot of residuals".into(),
+        None,
+        normal,
+    );
+    if !history.is_empty() {
+        for (i, name) in solved.names.iter().enumerate() {
+            let mut runs: Vec<TrendPoint> = history
+                .iter()
+                .filter_map(|h| {
+                    h.parameters.get(name).map(|p| TrendPoint {
+                        label: h.time.get(5..16).map_or_else(
+                            || h.run_id.chars().take(8).collect(),
+                            |t| t.replace('T', " "),
+                        ),
+                        value: p.value,
+                        std_error: p.std_error,
+                        current: false,
+                    })
+                })
+                .collect();
+            runs.push(TrendPoint {
+                label: "this run".into(),
+                value: solved.estimate.params.get(i).copied().unwrap_or(f64::NAN),
+                std_error: solved.uncertainty.std_errors.get(i).copied().flatten(),
+                current: true,
+            });
+            let limits = recipe
+                .acceptance
+                .parameters
+                .iter()
+                .find(|(n, _)| n.value == *name)
+                .map(|(_, c)| {
+                    (
+                        c.min.as_ref().map(|v| v.value),
+                        c.max.as_ref().map(|v| v.value),
+                    )
+                });
+            let input = TrendPlot {
+                runs: &runs,
+                y_axis: AxisLabel::new(
+                    name.clone(),
+                    prep.model
+                        .parameters
+                        .iter()
+                        .find(|p| p.name == *name)
+                        .and_then(|p| p.unit.as_deref()),
+                ),
+                min: limits.and_then(|l| l.0),
+                max: limits.and_then(|l| l.1),
+            };
+            push(
+                &mut out,
+                warnings,
+                &format!("trend-{}", slug(name)),
+                format!("{name} over the history"),
+                Some("value ± one standard error per run; limits of the recipe where given".into()),
+                plot::trend_plot(&input),
+            );
+        }
+    }
+    out
+}
+
+/// The data with the fitted curve and its bands, and the residuals against each predictor and
+/// against the fitted values.
+fn curve_and_residual_plots(
+    recipe: &Recipe,
+    prep: &Prepared,
+    solved: &Solved,
+    out: &mut Vec<Plot>,
+    warnings: &mut Vec<String>,
+) {
     let y = prep.y();
     let x = prep.x();
     let resp = &prep.model.response;
@@ -123,7 +204,7 @@ pub fn plots(
                 } else if prep.weights.is_some() {
                     caption.push_str("; the prediction band weights a new reading by the weights expression at the curve");
                 }
-                push(&mut out, warnings, "fit", format!("Data and fitted curve of {resp}"), Some(caption), plot::fit_plot(&input));
+                push(out, warnings, "fit", format!("Data and fitted curve of {resp}"), Some(caption), plot::fit_plot(&input));
             }
             None => warnings.push("the fitted curve could not be evaluated across the calibrated range; the data plot is left out".into()),
         }
@@ -140,7 +221,7 @@ pub fn plots(
             ),
         };
         push(
-            &mut out,
+            out,
             warnings,
             &format!("residuals-{}", slug(name)),
             format!("Residuals against {name}"),
@@ -162,16 +243,24 @@ pub fn plots(
         ),
     };
     push(
-        &mut out,
+        out,
         warnings,
         "residuals-fitted",
         "Residuals against fitted values".into(),
         None,
         plot::residual_plot(&input),
     );
-    let pearson: Vec<f64> = match &prep.weights {
+}
+
+/// The normal probability plot of the (Pearson) residuals.
+fn normal_plot(
+    prep: &Prepared,
+    solved: &Solved,
+) -> Result<RenderedPlot, crate::report::ReportError> {
+    let res = &solved.estimate.residuals;
+    let pearson: std::borrow::Cow<'_, [f64]> = match &prep.weights {
         Some(w) => res.iter().zip(w).map(|(e, w)| e * w.sqrt()).collect(),
-        None => res.clone(),
+        None => res.as_slice().into(),
     };
     let input = NormalPlot {
         residuals: &pearson,
@@ -184,71 +273,7 @@ pub fn plots(
             None,
         ),
     };
-    push(
-        &mut out,
-        warnings,
-        "normal-probability",
-        "Normal probability plot of residuals".into(),
-        None,
-        plot::normal_probability_plot(&input),
-    );
-    if !history.is_empty() {
-        for (i, name) in solved.names.iter().enumerate() {
-            let mut runs: Vec<TrendPoint> = history
-                .iter()
-                .filter_map(|h| {
-                    h.parameters.get(name).map(|p| TrendPoint {
-                        label: h.time.get(5..16).map_or_else(
-                            || h.run_id.chars().take(8).collect(),
-                            |t| t.replace('T', " "),
-                        ),
-                        value: p.value,
-                        std_error: p.std_error,
-                        current: false,
-                    })
-                })
-                .collect();
-            runs.push(TrendPoint {
-                label: "this run".into(),
-                value: solved.estimate.params.get(i).copied().unwrap_or(f64::NAN),
-                std_error: solved.uncertainty.std_errors.get(i).copied().flatten(),
-                current: true,
-            });
-            let limits = recipe
-                .acceptance
-                .parameters
-                .iter()
-                .find(|(n, _)| n.value == *name)
-                .map(|(_, c)| {
-                    (
-                        c.min.as_ref().map(|v| v.value),
-                        c.max.as_ref().map(|v| v.value),
-                    )
-                });
-            let input = TrendPlot {
-                runs: &runs,
-                y_axis: AxisLabel::new(
-                    name.clone(),
-                    prep.model
-                        .parameters
-                        .iter()
-                        .find(|p| p.name == *name)
-                        .and_then(|p| p.unit.as_deref()),
-                ),
-                min: limits.and_then(|l| l.0),
-                max: limits.and_then(|l| l.1),
-            };
-            push(
-                &mut out,
-                warnings,
-                &format!("trend-{}", slug(name)),
-                format!("{name} over the history"),
-                Some("value ± one standard error per run; limits of the recipe where given".into()),
-                plot::trend_plot(&input),
-            );
-        }
-    }
-    out
+    plot::normal_probability_plot(&input)
 }
 
 /// The weight of a new reading at (x₀, ŷ₀), when the weights expression uses only the

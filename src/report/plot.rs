@@ -450,10 +450,32 @@ fn decimate(chart: &Chart<'_, '_>, points: &[(f64, f64)]) -> Vec<(f64, f64)> {
     let rows = (ys.end.div_euclid(CELL_PX) - cy0 + 1).max(1);
     let mut grid = vec![false; (cols as usize) * (rows as usize)];
     let mut outside: HashSet<(i32, i32)> = HashSet::new();
+    // The chart's mapping is affine in each axis: taken from two corners once instead of
+    // going through the chart for every point.
+    let (xr, yr) = (chart.x_range(), chart.y_range());
+    let (a, b) = (
+        chart.backend_coord(&(xr.start, yr.start)),
+        chart.backend_coord(&(xr.end, yr.end)),
+    );
+    let (sx, sy) = (
+        f64::from(b.0 - a.0) / (xr.end - xr.start),
+        f64::from(b.1 - a.1) / (yr.end - yr.start),
+    );
+    let affine = sx.is_finite() && sy.is_finite();
+    let to_pixel = |p: &(f64, f64)| {
+        if affine {
+            (
+                (f64::from(a.0) + (p.0 - xr.start) * sx).round() as i32,
+                (f64::from(a.1) + (p.1 - yr.start) * sy).round() as i32,
+            )
+        } else {
+            chart.backend_coord(p)
+        }
+    };
     points
         .iter()
         .filter(|p| {
-            let (px, py) = chart.backend_coord(p);
+            let (px, py) = to_pixel(p);
             let (cx, cy) = (px.div_euclid(CELL_PX), py.div_euclid(CELL_PX));
             let (u, v) = (cx - cx0, cy - cy0);
             if (0..cols).contains(&u) && (0..rows).contains(&v) {
