@@ -3,6 +3,8 @@
 //! Each file is read once: bytes → SHA-256 (checked against a pinned hash) → a [`Grid`] (text
 //! decoded and split by [`super::text`], or a workbook sheet read by [`super::sheet`]) → the
 //! wanted columns as numbers, the `by` and `groups` columns as labels, the units row as units.
+//! The numbers of a text grid are parsed up front in parallel (`parse_ahead`); the row loop
+//! keeps the order of messages and skipped rows.
 //!
 //! A bad cell normally stops the load at once. In lenient mode (recipes with `by`, where one
 //! channel must not stop the others) the row is set aside with its error and its channel, and
@@ -373,6 +375,14 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     let mut skipped = Vec::new();
     let mut rejected = Vec::new();
     let mut row_values = vec![0.0; cols_idx.len()];
+    let ahead: Vec<Vec<f64>> = if is_sheet {
+        Vec::new()
+    } else {
+        cols_idx
+            .iter()
+            .map(|&ci| parse_ahead(grid, ci, fmt))
+            .collect()
+    };
     let skip = |row: &GridRow, column: &str, reason: &str, channel: Option<&String>| SkippedRow {
         file: path.to_path_buf(),
         line: row.number,
@@ -438,6 +448,17 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
             },
         };
         for (k, &ci) in cols_idx.iter().enumerate() {
+            if let Some(v) = ahead
+                .get(k)
+                .and_then(|c| c.get(ri))
+                .copied()
+                .filter(|v| !v.is_nan())
+            {
+                if let Some(slot) = row_values.get_mut(k) {
+                    *slot = v;
+                }
+                continue;
+            }
             let name = header_names.get(k).map_or("", String::as_str);
             let cell =
                 match grid.cell(ri, ci) {
@@ -499,6 +520,25 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         skipped,
         rejected,
     })
+}
+
+/// Column `ci` of a text grid parsed up front, in parallel blocks for large files: the value
+/// of every cell that holds a plain number, NaN for anything else (short rows, empty, NaN or
+/// bad cells), which the row loop then reads cell by cell as before, in row order, so errors
+/// and skipped rows are exactly those of a sequential read.
+fn parse_ahead(grid: &Grid, ci: usize, fmt: NumberFormat) -> Vec<f64> {
+    use rayon::prelude::*;
+    (0..grid.rows.len())
+        .into_par_iter()
+        .with_min_len(16_384)
+        .map(|ri| match grid.cell(ri, ci) {
+            Some(CellRef::Text(t)) => match parse_number(t, fmt) {
+                Parsed::Value(v) => v,
+                _ => f64::NAN,
+            },
+            _ => f64::NAN,
+        })
+        .collect()
 }
 
 fn column_name(header: &[String], index: usize) -> String {
