@@ -714,9 +714,7 @@ fn acceleration<M: Model + ?Sized>(
         w.theta_trial[j] = w.theta[j] + ACCEL_H * w.v[j];
     }
     *nfev += 1;
-    if model.eval(&w.theta_trial, &mut w.f_trial).is_err()
-        || !all_finite(&w.f_trial)
-    {
+    if model.eval(&w.theta_trial, &mut w.f_trial).is_err() || !all_finite(&w.f_trial) {
         return true;
     }
     // rhs = −W½·f_vv with f_vv ≈ (2/h)·((f(θ + h·v) − f(θ))/h − J·v); J·v accumulated
