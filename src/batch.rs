@@ -95,6 +95,13 @@ pub fn in_shard(path: &Path, (k, n): (usize, usize)) -> bool {
     (v % n as u64) as usize == k - 1
 }
 
+/// Stack of each worker thread. The passes over an expression recurse once per level, and
+/// the parser allows 200 levels; the derivatives of such a model (its Jacobian, compiled for
+/// the fit) are deeper still. Measured in a debug build, a depth-199 nest of `sin(b*x + …)`
+/// overflows the 2 MiB that threads get by default; 64 MiB leaves a wide margin and costs
+/// only address space (stack pages are committed when touched).
+const WORKER_STACK_BYTES: usize = 64 << 20;
+
 /// Run `work` over every recipe and return all outcomes in input order. Recipes with the
 /// same `group` key (the same report folder, hence the same history) run one after another in
 /// input order, so that each run's drift criteria see the run before it; groups run in
@@ -135,6 +142,7 @@ where
     };
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(options.jobs.unwrap_or(0))
+        .stack_size(WORKER_STACK_BYTES)
         .build()
         .map_err(|e| Error::internal(format!("cannot start worker threads: {e}")))?;
     let mut outcomes: Vec<(usize, Vec<RunOutcome>)> = pool.install(|| {

@@ -747,3 +747,68 @@ fn a_coefficient_map_singular_at_the_start_is_refused_with_the_parameter() {
         "{reason}"
     );
 }
+
+/// The deepest equations the parser accepts, with parameters deep inside, through the whole
+/// analysis (every auto transform, expansion, derivatives, conditions, back-transform) and
+/// its explanation, on a 2 MiB thread (the default of test threads and of the batch's
+/// workers) in a debug build: none may exhaust the stack.
+#[test]
+fn deepest_accepted_equations_survive_the_analysis_on_a_small_stack() {
+    let equations = [
+        format!("y = a + b*{}x{}", "sin(".repeat(199), ")".repeat(199)),
+        format!("y = a*exp(b*{}x{})", "(1 + x*".repeat(98), ")".repeat(98)),
+        format!("y = a*{}x{}", "(1 + b*x^".repeat(99), ")".repeat(99)),
+        format!("y = {}a*x + b{}", "ln(1 + ".repeat(99), ")".repeat(99)),
+        format!("y = a + b*{}x", "-".repeat(198)),
+        format!("y = {}a/(b + x){}", "1/(1 + ".repeat(98), ")".repeat(98)),
+    ];
+    let handle = std::thread::Builder::new()
+        .stack_size(2 << 20)
+        .spawn(move || {
+            for eq in &equations {
+                let parsed = parse_equation(eq).expect("within the limits");
+                let model = ModelSpec::new(
+                    "y",
+                    parsed.rhs.clone(),
+                    &["x"],
+                    &[("a", Some(1.5)), ("b", Some(0.5))],
+                );
+                // `auto` tries every transform of SPEC §4, ln(y), 1/y and y² among them.
+                let a = analyze(&model, &TransformChoice::Auto);
+                assert_eq!(a.candidates.len(), 7);
+                assert!(!explain_text(&a).is_empty());
+                assert!(serde_json::to_string(&a).is_ok());
+            }
+        })
+        .expect("thread");
+    assert!(
+        handle.join().is_ok(),
+        "the analysis failed on a 2 MiB stack"
+    );
+}
+
+/// Found by the analyze_equation fuzz target: under y² this sum expands to hundreds of
+/// basis terms, whose independence test took seconds while each term got a fresh SVD. The
+/// outcome must not change with the method: no transform separates the parameters.
+#[test]
+fn sum_expanding_to_hundreds_of_basis_terms_is_analysed() {
+    let src = include_str!("../../fuzz/seeds/analyze_equation/slow-y2");
+    let eq = parse_equation(src.trim()).expect("parses");
+    let mut names: Vec<String> = Vec::new();
+    for (n, _) in eq.rhs.identifiers() {
+        if !names.contains(&n) {
+            names.push(n);
+        }
+    }
+    let (params, predictors) = names.split_at(3);
+    let predictors: Vec<&str> = predictors.iter().map(String::as_str).collect();
+    let params: Vec<(&str, Option<f64>)> = params.iter().map(|p| (p.as_str(), Some(1.5))).collect();
+    let model = ModelSpec::new(&eq.response, eq.rhs.clone(), &predictors, &params);
+    let a = analyze(&model, &TransformChoice::Auto);
+    assert_eq!(a.outcome.label(), "not linearizable", "{:?}", a.outcome);
+    assert!(
+        a.candidates
+            .iter()
+            .all(|c| c.outcome.linearization().is_none())
+    );
+}

@@ -261,6 +261,36 @@ pub fn split_coefficient(n: &Node) -> (f64, Vec<Node>) {
     }
 }
 
+/// The numeric coefficient of a term, as [`split_coefficient`] gives it, without copying
+/// anything.
+fn coefficient(n: &Node) -> f64 {
+    match n {
+        Node::Num(v) => *v,
+        Node::Mul(fs) => {
+            let c: f64 = fs.iter().filter_map(Node::as_num).product();
+            if c.is_finite() { c } else { 1.0 }
+        }
+        _ => 1.0,
+    }
+}
+
+/// [`split_coefficient`] by reference: printing walks every level of a tree, and copying
+/// each level's factors made printing a deep tree quadratic (minutes for the derivative of a
+/// depth-199 nest in a debug build).
+fn split_coefficient_ref(n: &Node) -> (f64, Vec<&Node>) {
+    match n {
+        Node::Num(v) => (*v, Vec::new()),
+        Node::Mul(fs) => {
+            let c: f64 = fs.iter().filter_map(Node::as_num).product();
+            if !c.is_finite() {
+                return (1.0, fs.iter().collect());
+            }
+            (c, fs.iter().filter(|f| f.as_num().is_none()).collect())
+        }
+        other => (1.0, vec![other]),
+    }
+}
+
 /// Converts the algebraic form back to a syntax tree that prints naturally:
 /// `a - 2*b`, `a*b/(c*d)`, `sqrt(u)`, `1/x`.
 pub fn to_expr(n: &Node) -> Expr {
@@ -270,11 +300,11 @@ pub fn to_expr(n: &Node) -> Expr {
         Node::Sym(s) => Expr::name(s),
         Node::Add(terms) => sum_expr(terms),
         Node::Mul(_) => {
-            let (c, factors) = split_coefficient(n);
+            let (c, factors) = split_coefficient_ref(n);
             product_expr(c, &factors)
         }
         Node::Pow(b, e) => match e.as_num() {
-            Some(k) if k < 0.0 => product_expr(1.0, std::slice::from_ref(n)),
+            Some(k) if k < 0.0 => product_expr(1.0, &[n]),
             Some(0.5) => Expr::call(Func::Sqrt, vec![to_expr(b)]),
             _ => Expr::pow(to_expr(b), to_expr(e)),
         },
@@ -286,22 +316,16 @@ pub fn to_expr(n: &Node) -> Expr {
 }
 
 fn is_negative_term(n: &Node) -> bool {
-    split_coefficient(n).0 < 0.0
+    coefficient(n) < 0.0
 }
 
-fn negate(n: &Node) -> Node {
-    let (c, mut factors) = split_coefficient(n);
+/// The syntax tree of `−n` for a term with a negative coefficient.
+fn negated_expr(n: &Node) -> Expr {
+    let (c, factors) = split_coefficient_ref(n);
     if factors.is_empty() {
-        return Node::num(-c);
+        return Expr::number(-c);
     }
-    if c != -1.0 {
-        factors.insert(0, Node::num(-c));
-    }
-    if factors.len() == 1 {
-        factors.remove(0)
-    } else {
-        Node::Mul(factors)
-    }
+    product_expr(-c, &factors)
 }
 
 fn sum_expr(terms: &[Node]) -> Expr {
@@ -319,7 +343,7 @@ fn sum_expr(terms: &[Node]) -> Expr {
     let mut rest_exprs = Vec::new();
     for t in rest {
         if is_negative_term(t) {
-            rest_exprs.push((AddOp::Sub, to_expr(&negate(t))));
+            rest_exprs.push((AddOp::Sub, negated_expr(t)));
         } else {
             rest_exprs.push((AddOp::Add, to_expr(t)));
         }
@@ -337,18 +361,21 @@ fn sum_expr(terms: &[Node]) -> Expr {
 }
 
 /// `c · Π numerator / Π denominator`, with the sign in front.
-fn product_expr(c: f64, factors: &[Node]) -> Expr {
+fn product_expr(c: f64, factors: &[&Node]) -> Expr {
     let mut num: Vec<Expr> = Vec::new();
     let mut den: Vec<Expr> = Vec::new();
     for f in factors {
         match f {
             Node::Pow(b, e) if e.as_num().is_some_and(|k| k < 0.0) => {
                 let k = -e.as_num().unwrap_or(1.0);
-                den.push(to_expr(&if k == 1.0 {
-                    (**b).clone()
+                // As `to_expr` prints `b^k` for k > 0.
+                den.push(if k == 1.0 {
+                    to_expr(b)
+                } else if k == 0.5 {
+                    Expr::call(Func::Sqrt, vec![to_expr(b)])
                 } else {
-                    Node::pow((**b).clone(), Node::num(k))
-                }));
+                    Expr::pow(to_expr(b), Expr::number(k))
+                });
             }
             other => num.push(to_expr(other)),
         }

@@ -171,3 +171,49 @@ fn two_equals_signs_are_refused() {
     let (c, text) = eq_case("y = a = b*x");
     refused(&c, &[&pos(&text, "= b", 0), "`=`"]);
 }
+
+/// The batch's worker threads get their own large stack, whatever the default for threads
+/// is: with the default cut to 256 KiB (`RUST_MIN_STACK`), depth-199 equations still run.
+/// Before, the workers took the default (2 MiB), which a depth-199 nest of `sin(b*x + …)`
+/// overflowed in a debug build (SIGABRT), and a plain depth-199 nest overflowed 1 MiB.
+#[test]
+fn depth_199_equations_run_on_workers_whatever_the_default_thread_stack() {
+    for level in ["(", "abs(", "sin(x*"] {
+        let eq = format!("y = a + b*{}x{}", level.repeat(199), ")".repeat(199));
+        let r = Recipe::line().equation(&eq);
+        let c = r.case(LINE);
+        let out = std::process::Command::new(env!("CARGO_BIN_EXE_fitwright"))
+            .args(["run", "r.toml"])
+            .current_dir(c.dir.path())
+            .env("RUST_MIN_STACK", "262144")
+            .output()
+            .expect("run");
+        let stderr = String::from_utf8_lossy(&out.stderr);
+        assert!(
+            !stderr.contains("overflowed its stack") && matches!(out.status.code(), Some(0..=2)),
+            "{level}: {:?} {stderr}",
+            out.status
+        );
+    }
+}
+
+/// Depth-199 nests whose derivatives are much deeper trees than the model, at the default
+/// stack: these overflowed the 2 MiB of a worker thread in a debug build. They take about
+/// half a minute each in a debug build (the Jacobian of such a nest is large), so they run
+/// on request: `cargo test --test hostile -- --ignored deep_derivatives`.
+#[test]
+#[ignore = "about two minutes in a debug build; run with --ignored"]
+fn depth_199_nests_with_deep_derivatives_run_on_the_batch_workers() {
+    for level in ["sin(b*x + ", "ln(1 + b*", "atan2(b, ", "1/(1 + b*"] {
+        let eq = format!("y = a + b*{}x{}", level.repeat(199), ")".repeat(199));
+        let r = Recipe::line()
+            .equation(&eq)
+            .params(&["a = { start = 1 }", "b = { start = 0.5 }"]);
+        let c = r.case(LINE);
+        let out = c.run(&["run", "r.toml"]);
+        assert!(
+            !out.stderr.contains("overflowed its stack") && matches!(out.code, 0..=2),
+            "{level}: {out:?}"
+        );
+    }
+}
