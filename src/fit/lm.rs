@@ -11,8 +11,8 @@
 //!
 //! # Scaling
 //! D = diag(dⱼ), dⱼ = the largest ‖column j of J_w‖ seen so far (1 if always zero) — Moré,
-//! "The Levenberg–Marquardt algorithm: implementation and theory", Lecture Notes in
-//! Mathematics 630 (1978), §6. This makes the iteration invariant to the units of θ.
+//! "The Levenberg–Marquardt algorithm: implementation and theory", Springer LNM
+//! vol. 630 (1978), §6. This makes the iteration invariant to the units of θ.
 //!
 //! # Damping update
 //! Nielsen's rule (H. B. Nielsen, "Damping parameter in Marquardt's method", IMM-REP-1999-05,
