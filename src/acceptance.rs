@@ -71,7 +71,7 @@ impl Verdict {
     pub fn wording(self) -> &'static str {
         match self {
             Verdict::Accepted => "criteria met — awaiting review",
-            Verdict::NotJudged => "not judged — the recipe has no acceptance criteria",
+            Verdict::NotJudged => "not judged — no acceptance criteria",
             Verdict::Rejected => "criteria not met",
             Verdict::Invalid => "invalid input",
         }
@@ -122,7 +122,7 @@ pub struct Baseline {
 pub type ValueAt<'a> = &'a dyn Fn(&[(String, f64)]) -> Result<f64, String>;
 
 /// Everything the criteria are judged on.
-pub struct Measures<'a> {
+pub struct Measures {
     pub n: usize,
     pub converged: bool,
     pub stop_reason: String,
@@ -143,8 +143,6 @@ pub struct Measures<'a> {
     pub params: Vec<ParamMeasure>,
     /// `None` when there is no earlier accepted run.
     pub baseline: Option<Baseline>,
-    /// The curve's value at a setting of the predictors (for `points`).
-    pub value_at: ValueAt<'a>,
 }
 
 /// Format a number for the criteria table: up to 6 significant digits, no trailing noise.
@@ -220,7 +218,7 @@ fn r_squared_measure(v: f64) -> Measure {
 }
 
 /// Judge the measures against the recipe's criteria: the rows in recipe order, then the verdict.
-pub fn judge(acc: &Acceptance, m: &Measures<'_>) -> (Vec<CriterionRow>, Verdict) {
+pub fn judge(acc: &Acceptance, m: &Measures) -> (Vec<CriterionRow>, Verdict) {
     let mut rows = Vec::new();
     for (key, limit) in &acc.global {
         let l = limit.value;
@@ -371,9 +369,15 @@ pub fn judge(acc: &Acceptance, m: &Measures<'_>) -> (Vec<CriterionRow>, Verdict)
             let Some(limit) = limit else { continue };
             let key = format!("drift.{}.{suffix}", name.value);
             let what = if relative {
-                format!("relative change of {} since last accepted run", name.value)
+                format!(
+                    "relative change of {} since the last run whose criteria were met",
+                    name.value
+                )
             } else {
-                format!("change of {} since last accepted run", name.value)
+                format!(
+                    "change of {} since the last run whose criteria were met",
+                    name.value
+                )
             };
             let r = match (current, &previous) {
                 (Some(now), Some((before, run))) => {
@@ -409,57 +413,44 @@ pub fn judge(acc: &Acceptance, m: &Measures<'_>) -> (Vec<CriterionRow>, Verdict)
                     let mut r = row(&key, what, "≤", limit.value, &Measure::Value(0.0), false);
                     r.measured = "—".into();
                     r.measured_value = None;
-                    r.note =
-                        Some("no earlier accepted run in the history: nothing to compare".into());
+                    r.note = Some(
+                        "no earlier run whose criteria were met in the history: nothing to compare"
+                            .into(),
+                    );
                     r
                 }
             };
             rows.push(r);
         }
     }
-    for p in &acc.points {
-        let at_text =
-            p.at.iter()
-                .map(|(k, v)| format!("{k} = {}", fmt_num(*v)))
-                .collect::<Vec<_>>()
-                .join(", ");
-        let measure = match (m.value_at)(&p.at) {
-            Ok(v) => Measure::Value((v - p.expect).abs()),
-            Err(why) => Measure::NotApplicable(why),
-        };
-        let mut r = row(
-            "points",
-            format!("|curve − {}| at {at_text}", fmt_num(p.expect)),
-            "≤",
-            p.tolerance,
-            &measure,
-            false,
-        );
-        if let Ok(v) = (m.value_at)(&p.at) {
-            r.note = Some(format!("curve gives {}", fmt_num(v)));
-        }
-        rows.push(r);
-    }
-    let verdict = if acc.is_empty() {
+    // `points`, `back_calculated` and `drift_curve` need the curve and its uncertainty:
+    // their rows come from `metrology::criteria`, appended after these.
+    let verdict = verdict(!acc.is_empty(), m.converged, &rows);
+    (rows, verdict)
+}
+
+/// The verdict of a set of rows (SPEC §7, §13): not judged without criteria, accepted when the
+/// fit converged and every row passes, rejected otherwise.
+pub fn verdict(has_criteria: bool, converged: bool, rows: &[CriterionRow]) -> Verdict {
+    if !has_criteria {
         Verdict::NotJudged
-    } else if m.converged && rows.iter().all(|r| r.status == Status::Pass) {
+    } else if converged && rows.iter().all(|r| r.status == Status::Pass) {
         Verdict::Accepted
     } else {
         Verdict::Rejected
-    };
-    (rows, verdict)
+    }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::recipe::{ParamCriteria, PointCheck, Spanned};
+    use crate::recipe::{ParamCriteria, Spanned};
 
     fn sp<T>(v: T) -> Spanned<T> {
         Spanned::new(v, 0..0)
     }
 
-    fn measures(f: ValueAt<'_>) -> Measures<'_> {
+    fn measures() -> Measures {
         Measures {
             n: 12,
             converged: true,
@@ -485,13 +476,11 @@ mod tests {
                 std_error: Some(10.0),
             }],
             baseline: None,
-            value_at: f,
         }
     }
 
     #[test]
     fn all_rows_pass_gives_accepted() {
-        let f = |_: &[(String, f64)]| Ok(10010.0);
         let mut acc = Acceptance::default();
         acc.global.push((sp("r_squared_min".into()), sp(0.999)));
         acc.parameters.push((
@@ -502,22 +491,15 @@ mod tests {
                 rel_std_error_max: Some(sp(0.01)),
             },
         ));
-        acc.points.push(PointCheck {
-            at: vec![("T".into(), 25.0)],
-            expect: 10000.0,
-            tolerance: 50.0,
-            span: 0..0,
-        });
-        let (rows, verdict) = judge(&acc, &measures(&f));
-        assert_eq!(rows.len(), 5);
+        let (rows, verdict) = judge(&acc, &measures());
+        assert_eq!(rows.len(), 4);
         assert!(rows.iter().all(|r| r.status == Status::Pass), "{rows:?}");
         assert_eq!(verdict, Verdict::Accepted);
     }
 
     #[test]
     fn undefined_r_squared_is_not_applicable_rather_than_nan() {
-        let f = |_: &[(String, f64)]| Ok(0.0);
-        let mut m = measures(&f);
+        let mut m = measures();
         m.r_squared = f64::NAN;
         m.adj_r_squared = f64::NAN;
         let mut acc = Acceptance::default();
@@ -538,20 +520,18 @@ mod tests {
 
     #[test]
     fn not_applicable_row_counts_as_not_met() {
-        let f = |_: &[(String, f64)]| Ok(0.0);
         let mut acc = Acceptance::default();
         acc.global.push((sp("lack_of_fit_p_min".into()), sp(0.05)));
-        let (rows, verdict) = judge(&acc, &measures(&f));
+        let (rows, verdict) = judge(&acc, &measures());
         assert_eq!(rows[0].status, Status::NotApplicable);
         assert_eq!(verdict, Verdict::Rejected);
     }
 
     #[test]
     fn runs_limit_unreachable_is_not_applicable() {
-        let f = |_: &[(String, f64)]| Ok(0.0);
         let mut acc = Acceptance::default();
         acc.global.push((sp("runs_p_min".into()), sp(0.05)));
-        let mut m = measures(&f);
+        let mut m = measures();
         m.runs = RunsMeasure::Value {
             p: 0.5,
             min_attainable_p: 0.2,
@@ -562,26 +542,23 @@ mod tests {
 
     #[test]
     fn non_converged_fit_is_rejected_even_when_rows_pass() {
-        let f = |_: &[(String, f64)]| Ok(0.0);
         let mut acc = Acceptance::default();
         acc.global.push((sp("min_points".into()), sp(5.0)));
-        let mut m = measures(&f);
+        let mut m = measures();
         m.converged = false;
         assert_eq!(judge(&acc, &m).1, Verdict::Rejected);
     }
 
     #[test]
     fn no_criteria_is_not_judged() {
-        let f = |_: &[(String, f64)]| Ok(0.0);
         assert_eq!(
-            judge(&Acceptance::default(), &measures(&f)).1,
+            judge(&Acceptance::default(), &measures()).1,
             Verdict::NotJudged
         );
     }
 
     #[test]
     fn drift_without_history_passes_with_a_note_and_fails_beyond_limit() {
-        let f = |_: &[(String, f64)]| Ok(0.0);
         let mut acc = Acceptance::default();
         acc.drift.push((
             sp("B".into()),
@@ -590,16 +567,16 @@ mod tests {
                 max_abs_change: None,
             },
         ));
-        let (rows, _) = judge(&acc, &measures(&f));
+        let (rows, _) = judge(&acc, &measures());
         assert_eq!(rows[0].status, Status::Pass);
         assert!(
             rows[0]
                 .note
                 .as_deref()
                 .unwrap_or("")
-                .contains("no earlier accepted run")
+                .contains("no earlier run whose criteria were met")
         );
-        let mut m = measures(&f);
+        let mut m = measures();
         m.baseline = Some(Baseline {
             run_id: "r1".into(),
             params: vec![("B".into(), 3900.0)],

@@ -102,15 +102,32 @@ pub fn in_shard(path: &Path, (k, n): (usize, usize)) -> bool {
 /// only address space (stack pages are committed when touched).
 const WORKER_STACK_BYTES: usize = 64 << 20;
 
-/// Run `work` over every recipe, in parallel, and return all outcomes in input order.
-pub fn run_all<F>(recipes: &[PathBuf], options: &BatchOptions, work: F) -> Result<Vec<RunOutcome>>
+/// Run `work` over every recipe and return all outcomes in input order. Recipes with the
+/// same `group` key (the same report folder, hence the same history) run one after another in
+/// input order, so that each run's drift criteria see the run before it; groups run in
+/// parallel.
+pub fn run_all<F, G>(
+    recipes: &[PathBuf],
+    options: &BatchOptions,
+    group: G,
+    work: F,
+) -> Result<Vec<RunOutcome>>
 where
     F: Fn(&Path) -> Vec<RunOutcome> + Sync,
+    G: Fn(&Path) -> String,
 {
     let selected: Vec<&PathBuf> = recipes
         .iter()
         .filter(|p| options.shard.is_none_or(|s| in_shard(p, s)))
         .collect();
+    let mut groups: Vec<(String, Vec<(usize, &PathBuf)>)> = Vec::new();
+    for (i, p) in selected.iter().enumerate() {
+        let key = group(p);
+        match groups.iter_mut().find(|(k, _)| *k == key) {
+            Some((_, members)) => members.push((i, p)),
+            None => groups.push((key, vec![(i, p)])),
+        }
+    }
     let show_bar = !options.quiet && std::io::stderr().is_terminal() && selected.len() > 1;
     let bar = if show_bar {
         let b = indicatif::ProgressBar::new(selected.len() as u64);
@@ -134,23 +151,29 @@ where
         .stack_size(WORKER_STACK_BYTES)
         .build()
         .map_err(|e| Error::internal(format!("cannot start worker threads: {e}")))?;
-    let outcomes: Vec<Vec<RunOutcome>> = pool.install(|| {
-        selected
+    let mut outcomes: Vec<(usize, Vec<RunOutcome>)> = pool.install(|| {
+        groups
             .par_iter()
-            .map(|p| {
-                let out = work(p);
-                if let Some(b) = &bar {
-                    b.set_message(p.display().to_string());
-                    b.inc(1);
-                }
-                out
+            .flat_map_iter(|(_, members)| {
+                members
+                    .iter()
+                    .map(|(i, p)| {
+                        let out = work(p);
+                        if let Some(b) = &bar {
+                            b.set_message(p.display().to_string());
+                            b.inc(1);
+                        }
+                        (*i, out)
+                    })
+                    .collect::<Vec<_>>()
             })
             .collect()
     });
     if let Some(b) = bar {
         b.finish_and_clear();
     }
-    Ok(outcomes.into_iter().flatten().collect())
+    outcomes.sort_by_key(|(i, _)| *i);
+    Ok(outcomes.into_iter().flat_map(|(_, o)| o).collect())
 }
 
 /// The batch exit code: the highest of all outcomes (SPEC §13).
@@ -329,6 +352,52 @@ mod tests {
                 assert_eq!(hits, 1, "{} in {hits} of {n} shards", p.display());
             }
         }
+    }
+
+    fn outcome(verdict: Verdict) -> RunOutcome {
+        RunOutcome {
+            recipe: PathBuf::from("recipes/probe.toml"),
+            name: "probe".into(),
+            channel: None,
+            verdict,
+            wording: verdict.wording().into(),
+            figures: "R² 0.9999".into(),
+            report_dir: None,
+            failed: if verdict == Verdict::Rejected {
+                vec!["R² ≥ 0.9999: measured 0.99".into()]
+            } else {
+                Vec::new()
+            },
+            error: None,
+            exit_code: verdict.exit_code(),
+            seconds: 0.1,
+        }
+    }
+
+    #[test]
+    fn people_read_the_spec_wording_never_the_word_accepted() {
+        // SPEC §7/§13: "criteria met — awaiting review", "criteria not met", "invalid input";
+        // the codes stay in JSON only.
+        let all = [
+            outcome(Verdict::Accepted),
+            outcome(Verdict::Rejected),
+            outcome(Verdict::NotJudged),
+            outcome(Verdict::Invalid),
+        ];
+        let table = summary_table(&all);
+        let junit = junit_xml(&all);
+        for text in [&table, &junit] {
+            assert!(!text.to_lowercase().contains("accepted"), "{text}");
+            assert!(!text.to_lowercase().contains("rejected"), "{text}");
+        }
+        assert!(table.contains("criteria met — awaiting review"));
+        assert!(table.contains("criteria not met"));
+        assert!(table.contains("invalid input"));
+        assert!(junit.contains("message=\"criteria not met\""));
+        assert!(
+            json_summary(&all).contains("\"verdict\": \"accepted\""),
+            "codes stay in JSON"
+        );
     }
 
     #[test]

@@ -37,7 +37,7 @@ enum Command {
         #[arg(long, value_delimiter = ',')]
         format: Option<Vec<String>>,
         /// Recipes run at once (default: one per core).
-        #[arg(long, value_name = "N")]
+        #[arg(long, short = 'j', value_name = "N")]
         jobs: Option<usize>,
         /// Print the summary as JSON on stdout.
         #[arg(long)]
@@ -48,11 +48,15 @@ enum Command {
         /// Do not append to the history.
         #[arg(long)]
         no_history: bool,
+        /// Before fitting, judge the new data against the last curve whose criteria were met
+        /// (as found), then fit and judge as usual (as left).
+        #[arg(long)]
+        as_found: bool,
         /// Run only shard K of N (a deterministic split by recipe path).
         #[arg(long, value_name = "K/N")]
         shard: Option<String>,
         /// No progress bar and no per-recipe details.
-        #[arg(long)]
+        #[arg(long, short = 'q')]
         quiet: bool,
     },
     /// Show the linearizability analysis of a recipe's model and the fit plan.
@@ -89,10 +93,25 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Write an HTML index of every result under a folder (DIR/index.html).
+    Index {
+        /// A folder of reports, e.g. reports/
+        dir: PathBuf,
+    },
     /// Re-hash a stored result's inputs, re-run it, and say whether it reproduces.
     Verify {
         /// A result.json written by `fitwright run`.
         result: PathBuf,
+    },
+    /// Write the software validation report (exact problems, and the NIST StRD files when
+    /// given) as HTML and Markdown.
+    Validate {
+        /// A folder holding the NIST StRD collections (linear/ and nonlinear/ .dat files).
+        #[arg(long, value_name = "DIR")]
+        strd: Option<PathBuf>,
+        /// Output folder (default: validation/).
+        #[arg(long, value_name = "DIR", default_value = "validation")]
+        out: PathBuf,
     },
     /// Write a commented starter recipe NAME.toml in the current folder.
     Init {
@@ -127,6 +146,7 @@ pub fn main() -> i32 {
             json,
             junit,
             no_history,
+            as_found,
             shard,
             quiet,
         } => run(RunArgs {
@@ -137,10 +157,15 @@ pub fn main() -> i32 {
             json,
             junit,
             no_history,
+            as_found,
             shard,
             quiet,
         }),
         Command::Verify { result } => verify(&result),
+        Command::Index { dir } => crate::index::write(&dir).map(|(path, n)| {
+            println!("wrote {} ({n} runs)", path.display());
+            0
+        }),
         Command::Predict {
             result,
             at,
@@ -152,6 +177,7 @@ pub fn main() -> i32 {
         } => predict(&result, &at, &inverse, replicates, level, extrapolate, json),
         Command::Explain { recipe, json } => explain(&recipe, json),
         Command::Models => models(),
+        Command::Validate { strd, out } => validate(strd.as_deref(), &out),
         Command::Init { name, preset, data } => init(&name, preset.as_deref(), data.as_deref()),
     };
     match result {
@@ -237,6 +263,7 @@ struct RunArgs {
     json: bool,
     junit: Option<PathBuf>,
     no_history: bool,
+    as_found: bool,
     shard: Option<String>,
     quiet: bool,
 }
@@ -289,13 +316,21 @@ fn run(args: RunArgs) -> Result<i32> {
         time_from_epoch: from_epoch,
         verbose: recipes.len() == 1 && !args.quiet && !args.json,
         history_before: None,
+        as_found: args.as_found,
     };
     let options = crate::batch::BatchOptions {
         jobs: args.jobs,
         quiet: args.quiet || args.json,
         shard,
     };
-    let outcomes = crate::batch::run_all(&recipes, &options, |p| {
+    // Recipes sharing a report folder share a history: they run in order, one at a time.
+    let group = |p: &std::path::Path| match crate::recipe::load(p) {
+        Ok(r) => crate::pipeline::report_dir(&r, &settings)
+            .display()
+            .to_string(),
+        Err(_) => p.display().to_string(),
+    };
+    let outcomes = crate::batch::run_all(&recipes, &options, group, |p| {
         crate::pipeline::run_recipe(p, &settings)
     })?;
     for o in &outcomes {
@@ -472,9 +507,42 @@ fn predict(
             .map(|u| format!(" {u}"))
             .unwrap_or_default()
     };
-    let mut warnings = curve.warnings();
+    // Warnings of SPEC §14: not accepted, superseded (by the history beside the result's run
+    // folder), outside the calibrated range.
+    let history = result
+        .parent()
+        .and_then(std::path::Path::parent)
+        .map(|d| {
+            crate::history::read(&d.join("history.jsonl"))
+                .map(|(h, _)| h)
+                .unwrap_or_default()
+        })
+        .unwrap_or_default();
+    let mut warnings: Vec<String> = Vec::new();
+    for w in crate::metrology::warnings::predict_warnings(
+        &curve.doc,
+        &history,
+        &crate::metrology::warnings::Reading::At(&[]),
+    ) {
+        if !warnings.contains(&w) {
+            warnings.push(w);
+        }
+    }
+    // Expanded uncertainty (GUM) of each read-off, for one-predictor curves.
+    let gum = crate::metrology::ModelCurve::from_result(&curve.doc)
+        .ok()
+        .map(|c| {
+            let budget = curve
+                .doc
+                .metrology
+                .as_ref()
+                .map(|m| m.budget.clone())
+                .unwrap_or_default();
+            (c, budget)
+        });
     let mut forwards = Vec::new();
     let mut inverses = Vec::new();
+    let mut read_offs: Vec<crate::metrology::ReadOff> = Vec::new();
     if inverse.is_empty() {
         for a in at {
             let point = parse_assignments(a, "--at")?;
@@ -485,7 +553,14 @@ fn predict(
                 }
                 warnings.extend(outside.into_iter().map(|o| format!("{o} (extrapolated)")));
             }
-            forwards.push(curve.forward(&point, level, replicates)?);
+            let f = curve.forward(&point, level, replicates)?;
+            if let (Some((c, budget)), [(_, x)]) = (&gum, point.as_slice())
+                && let Ok(r) =
+                    crate::metrology::read_off::forward(c, *x, Some(replicates), budget, true)
+            {
+                read_offs.push(r);
+            }
+            forwards.push(f);
         }
     } else {
         let given = match at {
@@ -506,11 +581,18 @@ fn predict(
                         .help("repeat --inverse for several readings"),
                 );
             };
-            inverses.push(curve.inverse(name, *value, &given, level, replicates, extrapolate)?);
+            let inv = curve.inverse(name, *value, &given, level, replicates, extrapolate)?;
+            if let Some((c, budget)) = &gum
+                && let Ok(list) =
+                    crate::metrology::read_off::inverse(c, *value, replicates, budget, true)
+            {
+                read_offs.extend(list);
+            }
+            inverses.push(inv);
         }
     }
     if json {
-        let v = serde_json::json!({"result": result.display().to_string(), "run_id": curve.doc.run_id, "verdict": curve.doc.verdict, "warnings": warnings, "forward": forwards, "inverse": inverses});
+        let v = serde_json::json!({"result": result.display().to_string(), "run_id": curve.doc.run_id, "verdict": curve.doc.verdict, "warnings": warnings, "forward": forwards, "inverse": inverses, "uncertainty": read_offs});
         println!(
             "{}",
             serde_json::to_string_pretty(&v).map_err(|e| Error::internal(e.to_string()))?
@@ -580,5 +662,37 @@ fn predict(
             println!("    note: {n}");
         }
     }
+    if !read_offs.is_empty() {
+        println!("measurement uncertainty (JCGM 100:2008; fit and the recipe's components):");
+        for r in &read_offs {
+            println!("    {}", r.statement(unit(&r.read).trim_start()));
+        }
+    }
     Ok(0)
+}
+
+/// `fitwright validate`: exit 0 when every validation criterion is met, else 1.
+fn validate(strd: Option<&std::path::Path>, out: &std::path::Path) -> Result<i32> {
+    let (time, _) = run_time()?;
+    let generated_at = crate::report::write::utc_timestamp(time)
+        .map_err(|e| Error::internal(format!("time: {e}")))?;
+    let v = crate::validate::validate(strd, generated_at)?;
+    for c in &v.criteria {
+        println!(
+            "{}  {} — {}",
+            if c.met { "met    " } else { "NOT MET" },
+            c.text,
+            c.measured
+        );
+    }
+    for path in crate::validate::write(&v, out)? {
+        println!("wrote {}", path.display());
+    }
+    if v.met() {
+        println!("validation criteria met — awaiting review");
+        Ok(0)
+    } else {
+        println!("validation criteria not met");
+        Ok(1)
+    }
 }

@@ -1,21 +1,28 @@
-//! Running the fit methods of SPEC §5 on a prepared model: the model compiled once to a tape
-//! (value and exact Jacobian in one pass), weighted linear least squares for models linear in
-//! their parameters, Levenberg–Marquardt in the original space otherwise.
+//! Running the fit methods of SPEC §5 on a prepared model: the model compiled once to two
+//! tapes (the value alone, and the value with its exact Jacobian in one pass), weighted linear
+//! least squares for models linear in their parameters, Levenberg–Marquardt in the original
+//! space otherwise.
 
 use std::cell::RefCell;
 
 use nalgebra::DMatrix;
 
 use crate::error::{Error, Result};
-use crate::expr::{self, Expr, MultiTape, Symbols};
+use crate::expr::{self, Expr, MultiTape, Symbols, TapeScratch};
 use crate::fit::linear;
 use crate::fit::lm::{self, Bound, LmOptions, Model as LmModel, ModelError, Observations};
 use crate::model::Prepared;
 
 /// The model `f(x; θ)` over the rows of the data, with fixed parameters substituted, as the
-/// Levenberg–Marquardt solver sees it. Output 0 of the tape is f, output 1 + j is ∂f/∂θⱼ.
+/// Levenberg–Marquardt solver sees it. Output 0 of `tape` is f, output 1 + j is ∂f/∂θⱼ;
+/// `value_tape` computes f alone, for the trial points where the solver needs no Jacobian.
+/// Both compile the same simplified f, so they give the same values to the last bit. Each
+/// keeps its working memory between calls, so the fit's inner loop does not allocate.
 pub struct TapeModel<'a> {
     tape: MultiTape,
+    value_tape: MultiTape,
+    work: RefCell<TapeScratch>,
+    value_work: RefCell<TapeScratch>,
     columns: Vec<&'a [f64]>,
     n: usize,
     p: usize,
@@ -36,11 +43,17 @@ impl<'a> TapeModel<'a> {
             variables: predictors.to_vec(),
             parameters: free.to_vec(),
         };
-        let tape = MultiTape::model_and_jacobian(rhs, &symbols)
-            .map_err(|e| Error::internal(format!("the model does not compile: {}", e.message)))?;
+        let compile_error = |e: expr::ExprError| {
+            Error::internal(format!("the model does not compile: {}", e.message))
+        };
+        let tape = MultiTape::model_and_jacobian(rhs, &symbols).map_err(compile_error)?;
+        let value_tape = MultiTape::compile(&tape.exprs()[..1], &symbols).map_err(compile_error)?;
         let n = columns.first().map_or(0, |c| c.len());
         Ok(TapeModel {
             tape,
+            value_tape,
+            work: RefCell::default(),
+            value_work: RefCell::default(),
             columns,
             n,
             p: free.len(),
@@ -83,15 +96,13 @@ impl LmModel for TapeModel<'_> {
     }
 
     fn eval(&self, params: &[f64], f_out: &mut [f64]) -> std::result::Result<(), ModelError> {
-        // The Jacobian outputs are computed too (the tape is shared); they go to scratch space.
-        let mut j = vec![0.0; self.n * self.p];
-        let mut outs: Vec<&mut [f64]> = Vec::with_capacity(self.p + 1);
-        outs.push(f_out);
-        for chunk in j.chunks_mut(self.n.max(1)) {
-            outs.push(chunk);
-        }
-        self.tape
-            .eval(&self.columns, params, &mut outs)
+        self.value_tape
+            .eval_in(
+                &mut self.value_work.borrow_mut(),
+                &self.columns,
+                params,
+                &mut [f_out],
+            )
             .map_err(|e| self.error(e))
     }
 
@@ -108,7 +119,12 @@ impl LmModel for TapeModel<'_> {
             outs.push(col);
         }
         self.tape
-            .eval(&self.columns, params, &mut outs)
+            .eval_in(
+                &mut self.work.borrow_mut(),
+                &self.columns,
+                params,
+                &mut outs,
+            )
             .map_err(|e| self.error(e))
     }
 }
@@ -353,4 +369,33 @@ pub fn fit_nonlinear(
         stop_reason: out.stop.to_string(),
         has_constant: true,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn value_tape_gives_the_jacobian_tapes_values_to_the_last_bit() {
+        // The solver compares SSR at trial points (value tape) with SSR at accepted points
+        // (the Jacobian tape's output 0); they must be the same function.
+        let eq = expr::parse_equation("y = b1*exp(-b2*x)/(1 + b3*x^2) - sqrt(x + b2)").unwrap();
+        let x: Vec<f64> = (0..37).map(|i| 0.1 + 0.37 * f64::from(i)).collect();
+        let names = ["b1".to_string(), "b2".to_string(), "b3".to_string()];
+        let describe = |row: usize| format!("row {row}");
+        let model =
+            TapeModel::new(&eq.rhs, &["x".to_string()], vec![&x], &names, &describe).unwrap();
+        let theta = [2.5, 0.31, 0.07];
+        let f = model.values(&theta).unwrap();
+        let j = model.jacobian_at(&theta).unwrap();
+        let from_jacobian_tape = model.scratch.borrow().clone();
+        assert_eq!(j.ncols(), 3);
+        for (a, b) in f.iter().zip(&from_jacobian_tape) {
+            assert_eq!(a.to_bits(), b.to_bits());
+        }
+        // And both are the model: b1·e^(−b2·x)/(1 + b3·x²) − √(x + b2) at the first row.
+        let x0 = x[0];
+        let direct = 2.5 * (-0.31 * x0).exp() / (1.0 + 0.07 * x0 * x0) - (x0 + 0.31).sqrt();
+        assert!((f[0] - direct).abs() <= 1e-15 * direct.abs().max(1.0));
+    }
 }

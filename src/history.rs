@@ -39,6 +39,9 @@ pub struct HistoryLine {
     /// Where the run's `result.json` is, relative to the history file's folder.
     #[serde(default)]
     pub result: Option<String>,
+    /// The report id this run's report amends and replaces (`[report] supersedes`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub supersedes: Option<String>,
 }
 
 /// Append one line, holding an exclusive lock while writing.
@@ -152,6 +155,7 @@ mod tests {
             statistics: [("r_squared".to_string(), 0.9999)].into(),
             verdict: verdict.into(),
             result: None,
+            supersedes: None,
         }
     }
 

@@ -27,19 +27,35 @@ impl StarterModel {
     }
 }
 
-/// The starter model of a preset (until the preset library is wired in, only the straight
-/// line is known).
+/// The starter model of a preset.
 pub fn starter_from_preset(name: &str) -> Result<StarterModel> {
-    match name {
-        "straight-line" => Ok(StarterModel::straight_line()),
-        other => Err(Error::usage(format!("there is no preset `{other}`"))
-            .help("`fitwright models` lists the presets")),
-    }
+    let p = crate::analysis::presets::preset(name).ok_or_else(|| {
+        let keys: Vec<&str> = crate::analysis::presets::presets()
+            .iter()
+            .map(|p| p.key)
+            .collect();
+        let err = Error::usage(format!("there is no preset `{name}`"));
+        match crate::error::did_you_mean(name, keys.iter().copied()) {
+            Some(s) => err.help(format!("{s} (`fitwright models` lists the presets)")),
+            None => err.help("`fitwright models` lists the presets"),
+        }
+    })?;
+    Ok(StarterModel {
+        equation: p.equation.to_string(),
+        parameters: p
+            .parameters
+            .iter()
+            .map(|(n, s)| (n.to_string(), Some(*s)))
+            .collect(),
+        response: p.response.to_string(),
+        predictors: p.predictors.iter().map(|s| s.to_string()).collect(),
+        preset: Some(p.key.to_string()),
+    })
 }
 
 /// Header names of a delimited data file: the first line that is not blank or a `#` comment,
 /// split on the first of `,`, `;`, tab that occurs, else on whitespace.
-pub fn guess_header(path: &Path) -> Result<(Vec<String>, Option<char>)> {
+pub fn guess_header(path: &Path) -> Result<(Vec<String>, Option<char>, bool)> {
     let bytes = std::fs::read(path).map_err(|e| {
         Error::usage(format!("cannot read the data file: {e}"))
             .in_file(path)
@@ -56,6 +72,7 @@ pub fn guess_header(path: &Path) -> Result<(Vec<String>, Option<char>)> {
                 .in_file(path)
                 .help("give a data file whose first line names its columns")
         })?;
+    let comments = text.lines().any(|l| l.trim_start().starts_with('#'));
     let delim = [',', ';', '\t'].into_iter().find(|d| line.contains(*d));
     let names: Vec<String> = match delim {
         Some(d) => line
@@ -64,7 +81,7 @@ pub fn guess_header(path: &Path) -> Result<(Vec<String>, Option<char>)> {
             .collect(),
         None => line.split_whitespace().map(str::to_string).collect(),
     };
-    Ok((names, delim))
+    Ok((names, delim, comments))
 }
 
 fn relative_to(path: &Path, base: &Path) -> PathBuf {
@@ -87,7 +104,7 @@ fn relative_to(path: &Path, base: &Path) -> PathBuf {
 pub fn starter_recipe(
     name: &str,
     model: &StarterModel,
-    data: Option<(&Path, &[String], Option<char>)>,
+    data: Option<(&Path, &[String], Option<char>, bool)>,
     recipe_dir: &Path,
 ) -> String {
     let mut s = String::new();
@@ -105,7 +122,7 @@ pub fn starter_recipe(
         .chain(model.predictors.iter())
         .collect();
     match data {
-        Some((path, header, delim)) => {
+        Some((path, header, delim, comments)) => {
             let rel = relative_to(path, recipe_dir);
             s.push_str(&format!(
                 "files = [{}]\n",
@@ -113,6 +130,11 @@ pub fn starter_recipe(
             ));
             if delim == Some(';') {
                 s.push_str("delimiter = \";\"\n");
+            }
+            if comments {
+                s.push_str(
+                    "comment = \"#\"                       # lines starting with # are ignored\n",
+                );
             }
             // The model's predictors take the first columns and the response the next one:
             // the usual layout of an export (setting, then reading).
@@ -204,7 +226,9 @@ pub fn write_starter(
     let text = starter_recipe(
         name,
         model,
-        header.as_ref().map(|(p, (h, d))| (*p, h.as_slice(), *d)),
+        header
+            .as_ref()
+            .map(|(p, (h, d, c))| (*p, h.as_slice(), *d, *c)),
         dir,
     );
     crate::fsutil::write_atomic(&target, text.as_bytes())?;

@@ -45,7 +45,10 @@ pub mod hash;
 #[cfg_attr(not(test), deny(clippy::indexing_slicing))]
 pub mod history;
 #[cfg_attr(not(test), deny(clippy::indexing_slicing))]
+pub mod index;
+#[cfg_attr(not(test), deny(clippy::indexing_slicing))]
 pub mod init;
+pub mod metrology;
 pub mod model;
 pub mod pipeline;
 #[cfg_attr(not(test), deny(clippy::indexing_slicing))]
@@ -62,12 +65,11 @@ pub mod result;
 pub mod source;
 pub mod stats;
 #[cfg_attr(not(test), deny(clippy::indexing_slicing))]
+pub mod validate;
+#[cfg_attr(not(test), deny(clippy::indexing_slicing))]
 pub mod verify;
 
 pub use error::{Error, ErrorKind, Result};
 
 /// The caution of SPEC §12, shown in the README and every report.
-pub const CAUTION: &str = "Calibration results can feed decisions about safety, health and legal metrology. \
-This report is an aid to a qualified person's review; acceptance by this tool does not replace the \
-laboratory's documented procedure, its accreditation requirements (for example ISO/IEC 17025) or local \
-regulations, which prevail.";
+pub use report::context::CAUTION;

@@ -218,6 +218,20 @@ pub fn parse_model(recipe: &Recipe) -> Result<(Model, Text)> {
     }
     for p in &parameters {
         if !eq.rhs.mentions(&p.name) {
+            // A misspelt parameter shows up as an unused declaration plus an unknown name:
+            // point at the misspelling, which is what the user must fix.
+            let typo = eq.rhs.identifiers().into_iter().find(|(n, _)| {
+                predictors.contains(n) && crate::error::closest(n, [p.name.as_str()]).is_some()
+            });
+            if let Some((name, at)) = typo {
+                let span = text.inner_span(at.start..at.end);
+                return Err(recipe
+                    .error_at(span, format!("unknown name `{name}` in the equation"))
+                    .help(format!(
+                        "did you mean `{}`? it is declared in [model.parameters] but not used (names are case-sensitive)",
+                        p.name
+                    )));
+            }
             let span = recipe
                 .model
                 .parameters

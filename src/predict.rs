@@ -394,15 +394,16 @@ impl Curve {
         }
         let a = self.value(&[(var.to_string(), 0.0)]).ok()?;
         let b = self.value(&[(var.to_string(), 1.0)]).ok()? - a;
-        let x: Vec<f64> = self
-            .doc
-            .residuals
-            .iter()
-            .filter_map(|r| r.x.first().copied())
-            .collect();
-        let line =
-            stats::calibration::StraightLine::from_fit(a, b, self.doc.statistics.std_error, &x)
-                .ok()?;
+        let xm = self.doc.moments(var)?;
+        let line = stats::calibration::StraightLine::from_moments(
+            a,
+            b,
+            self.doc.statistics.std_error,
+            xm.n,
+            xm.mean,
+            xm.sxx,
+        )
+        .ok()?;
         let est = stats::calibration::fieller(&line, reading, m.max(1) as usize, level).ok()?;
         use stats::calibration::FiellerSet;
         Some(match est.set {
@@ -428,18 +429,6 @@ impl Curve {
                 }
             }
         })
-    }
-
-    /// Warnings about the stored result itself (SPEC §14).
-    pub fn warnings(&self) -> Vec<String> {
-        let mut w = Vec::new();
-        if self.doc.verdict != "accepted" {
-            w.push(format!(
-                "this calibration's verdict is \"{}\": read values off it with care",
-                self.doc.verdict_wording
-            ));
-        }
-        w
     }
 }
 

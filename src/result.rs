@@ -1,13 +1,32 @@
 //! `result.json` (SPEC §8): everything `predict`, `verify` and `index` need, with a
 //! `schema_version`. The layout is documented field by field here and in DEVELOPERS.md;
-//! a change that removes or renames a field raises [`SCHEMA_VERSION`].
+//! a change that removes or renames a field, or changes what one holds, raises
+//! [`SCHEMA_VERSION`].
+//!
+//! Versions:
+//! - 1: `residuals` lists every row.
+//! - 2: `residuals` lists every row up to [`RESIDUAL_ROWS_ALL`] rows, and for larger data
+//!   sets only the [`RESIDUAL_ROWS_KEPT`] rows with the largest |standardized residual|
+//!   (a million-row run wrote a 340 MB result.json); `residual_rows` says which rows are
+//!   listed, and `data.moments` keeps the per-predictor n, mean and Sxx that `predict`
+//!   needs (Fieller's interval) without the rows. Version 1 files are still read: their
+//!   full residual table gives the same moments.
 
 use std::collections::BTreeMap;
 
 use serde::{Deserialize, Serialize};
 
 /// Version of the layout below.
-pub const SCHEMA_VERSION: u32 = 1;
+pub const SCHEMA_VERSION: u32 = 2;
+
+/// Oldest version [`ResultDoc::read`] accepts (see the module docs).
+pub const OLDEST_READABLE_VERSION: u32 = 1;
+
+/// Up to this many rows, `residuals` lists every row.
+pub const RESIDUAL_ROWS_ALL: usize = 10_000;
+
+/// Rows listed in `residuals` for larger data sets.
+pub const RESIDUAL_ROWS_KEPT: usize = 1_000;
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 pub struct ResultDoc {
@@ -41,7 +60,12 @@ pub struct ResultDoc {
     pub correlation: Vec<Vec<f64>>,
     pub statistics: Statistics,
     pub diagnostics: BTreeMap<String, serde_json::Value>,
+    /// Row table: every row, or for more than [`RESIDUAL_ROWS_ALL`] rows a selection (see
+    /// `residual_rows`), in row order.
     pub residuals: Vec<ResidualRow>,
+    /// Which rows `residuals` lists (version 2; absent in version 1, where it is every row).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub residual_rows: Option<ResidualSelection>,
     #[serde(default)]
     pub compare: Vec<serde_json::Value>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -49,6 +73,66 @@ pub struct ResultDoc {
     pub warnings: Vec<String>,
     /// Every setting that influenced the numbers.
     pub settings: BTreeMap<String, String>,
+    /// The calibration record of SPEC §14 (report id, dates, item, procedure, standards,
+    /// conditions, uncertainty budget, decision rule); absent in results of older versions.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub metrology: Option<MetrologyDoc>,
+    /// `run --as-found`: the new data judged against the last curve that met its criteria,
+    /// before the new fit.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub as_found: Option<AsFoundDoc>,
+}
+
+/// The calibration record of a run (SPEC §14).
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct MetrologyDoc {
+    /// `<name>-<run id>`, unique per report.
+    pub report_id: String,
+    /// The report id this one amends and replaces (`[report] supersedes`).
+    pub supersedes: Option<String>,
+    /// Date of issue: the UTC date of the run.
+    pub issued_on: Option<crate::metrology::Date>,
+    /// `[conditions] measured_on`.
+    pub measured_on: Option<crate::metrology::Date>,
+    pub item: Option<crate::metrology::record::Item>,
+    pub procedure: Option<crate::metrology::record::Procedure>,
+    pub standards: Vec<crate::metrology::record::Standard>,
+    pub conditions: Vec<crate::metrology::record::Condition>,
+    /// Components (the standards that state `u`, then `[uncertainty] components`) and the
+    /// coverage rule: what `predict` combines with the fit uncertainty.
+    pub budget: crate::metrology::Budget,
+    pub decision_rule: crate::metrology::DecisionRule,
+    /// `[decision] tolerance` / `tolerance_x`, the tolerance of every calibration point.
+    pub tolerance: Option<ToleranceDoc>,
+    /// Values read off the curve across the calibrated range with their budgets (inverse:
+    /// the predictor from one new reading).
+    pub read_offs: Vec<crate::metrology::ReadOff>,
+    /// The calibration points against the new curve (with `[decision] tolerance`).
+    pub as_left: Option<crate::metrology::as_found::Deviations>,
+    /// Why read-offs could not be computed, if they could not (e.g. several predictors).
+    pub read_off_note: Option<String>,
+}
+
+/// A tolerance and the variable it is in.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct ToleranceDoc {
+    pub tolerance: crate::metrology::Tolerance,
+    pub axis: crate::metrology::Axis,
+    /// As a procedure writes it, e.g. "±(0.05 % of reading + 0.02 % of full scale 100 °C)".
+    pub text: String,
+}
+
+/// The as-found judgement of `run --as-found`.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct AsFoundDoc {
+    /// The run whose curve the new data were judged against.
+    pub against_run: String,
+    pub against_time: String,
+    /// Whether every point passed under the decision rule.
+    pub within_tolerance: bool,
+    /// "18 of 19 points pass (18 pass, 1 conditional pass)".
+    pub summary: String,
+    pub deviations: crate::metrology::as_found::Deviations,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -100,6 +184,42 @@ pub struct DataInfo {
     pub ranges: BTreeMap<String, [f64; 2]>,
     /// The weights expression, if any.
     pub weights: Option<String>,
+    /// Per predictor: n, mean and Sxx of the rows used (version 2; empty in version 1).
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub moments: BTreeMap<String, Moments>,
+}
+
+/// n, mean and `Sxx = Σ(x − x̄)²` of a predictor over the rows used.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct Moments {
+    pub n: usize,
+    pub mean: f64,
+    pub sxx: f64,
+}
+
+impl Moments {
+    /// Two passes (mean, then squared deviations) for accuracy on offset data.
+    pub fn of(x: &[f64]) -> Moments {
+        let n = x.len();
+        let mean = if n == 0 {
+            f64::NAN
+        } else {
+            x.iter().sum::<f64>() / n as f64
+        };
+        let sxx = x.iter().map(|v| (v - mean) * (v - mean)).sum();
+        Moments { n, mean, sxx }
+    }
+}
+
+/// Which rows the `residuals` table of a large run lists.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ResidualSelection {
+    /// Rows used by the fit.
+    pub total: usize,
+    /// Rows listed.
+    pub listed: usize,
+    /// How they were chosen, in words.
+    pub rule: String,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -221,15 +341,33 @@ impl ResultDoc {
                 ))
                 .help("give the path of a result.json written by `fitwright run`")
         })?;
-        if doc.schema_version != SCHEMA_VERSION {
+        if !(OLDEST_READABLE_VERSION..=SCHEMA_VERSION).contains(&doc.schema_version) {
             return Err(crate::Error::input(format!(
-                "result.json has schema version {}, this fitwright reads version {SCHEMA_VERSION}",
+                "result.json has schema version {}, this fitwright reads versions {OLDEST_READABLE_VERSION} to {SCHEMA_VERSION}",
                 doc.schema_version
             ))
             .in_file(path)
             .help("use the fitwright version named in the result's `tool.version`"));
         }
         Ok(doc)
+    }
+
+    /// n, mean and Sxx of a predictor: from `data.moments`, or for a version 1 file (whose
+    /// `residuals` list every row) from the residual table.
+    pub fn moments(&self, predictor: &str) -> Option<Moments> {
+        if let Some(m) = self.data.moments.get(predictor) {
+            return Some(*m);
+        }
+        if self.residual_rows.is_some() {
+            return None;
+        }
+        let k = self.model.predictors.iter().position(|p| p == predictor)?;
+        let x: Vec<f64> = self
+            .residuals
+            .iter()
+            .filter_map(|r| r.x.get(k).copied())
+            .collect();
+        Some(Moments::of(&x))
     }
 
     /// Value of a parameter by name.

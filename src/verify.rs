@@ -73,14 +73,22 @@ pub fn verify(result: &Path) -> Result<Findings> {
     }
     // The run's time is in its id; re-run as of then, against the history as it was then.
     let time = run_time(&doc.generated_at).unwrap_or(0);
+    // The history the run read sits beside its folder: <dir>/<run-id>/result.json. When <dir> is
+    // named after the recipe (always so with `--out`), point the re-run at it.
+    let recorded_dir = result.parent().and_then(Path::parent);
+    let out = recorded_dir
+        .filter(|d| d.file_name().is_some_and(|n| n == doc.recipe.name.as_str()))
+        .and_then(Path::parent)
+        .map(Path::to_path_buf);
     let settings = RunSettings {
-        out: None,
+        out,
         formats: None,
         history: false,
         time,
         time_from_epoch: true,
         verbose: false,
         history_before: Some(doc.run_id.clone()),
+        as_found: doc.as_found.is_some(),
     };
     let mut c = match pipeline::compute(&path, &settings) {
         Ok(c) => c,

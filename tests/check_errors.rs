@@ -465,3 +465,80 @@ fn one_bad_recipe_does_not_hide_the_others() {
         "r2.toml:5:10",
     ]);
 }
+
+#[test]
+fn where_filter_removes_rows_and_check_counts_them() {
+    let r = RECIPE.replace(
+        "files = [\"d.csv\"]",
+        "files = [\"d.csv\"]\nwhere = \"T >= 10 && R < 20\"",
+    );
+    let data = "temp_c,resistance_ohm\n0,10.0\n10,12.1\n20,14.9\n30,18.2\n40,22.3\n";
+    case(&r, data)
+        .run(&["check", "r.toml"])
+        .expect_code(0)
+        .expect_contains(&["3 rows from 1 file, 2 filtered out"]);
+}
+
+#[test]
+fn unknown_name_in_where_points_at_it() {
+    let r = RECIPE.replace(
+        "files = [\"d.csv\"]",
+        "files = [\"d.csv\"]\nwhere = \"t >= 10\"",
+    );
+    check_fails(
+        &case(&r, DATA),
+        &["r.toml:6:10", "unknown name `t`", "did you mean `T`?"],
+    );
+}
+
+#[test]
+fn comparison_in_an_equation_is_refused() {
+    let r = RECIPE.replace("R = a * exp(b * T)", "R = a * exp(b * T) > 1");
+    check_fails(&case(&r, DATA), &["r.toml:9:", "in the equation"]);
+}
+
+#[test]
+fn unknown_parameter_in_equation_gets_suggestion() {
+    let r = RECIPE.replace("R = a * exp(b * T)", "R = a * exp(B * T)");
+    check_fails(
+        &case(&r, DATA),
+        &["r.toml:9:25", "unknown name `B`", "did you mean `b`?"],
+    );
+}
+
+#[test]
+fn declared_parameter_not_used_is_an_error() {
+    let r = RECIPE.replace(
+        "b = { start = 0.1 }",
+        "b = { start = 0.1 }\nc = { start = 1 }",
+    );
+    check_fails(
+        &case(&r, DATA),
+        &[
+            "r.toml:13:1",
+            "parameter `c` is declared but the equation does not use it",
+        ],
+    );
+}
+
+#[test]
+fn not_identifiable_model_is_refused_with_the_combination() {
+    let r = RECIPE.replace("R = a * exp(b * T)", "R = a * b * exp(T)");
+    check_fails(&case(&r, DATA), &["r.toml:9:12", "not identifiable", "a·b"]);
+}
+
+#[test]
+fn weights_that_are_not_positive_are_refused_with_rows() {
+    let r = RECIPE.replace(
+        "confidence = 0.95",
+        "confidence = 0.95\nweights = \"T - 10\"",
+    );
+    check_fails(
+        &case(&r, DATA),
+        &[
+            "r.toml:16:11",
+            "zero, negative or not finite",
+            "lines 2 and 3 of",
+        ],
+    );
+}

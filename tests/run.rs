@@ -82,7 +82,7 @@ fn accepted_run_writes_reports_result_and_history() {
         assert!(runs[0].join(f).is_file(), "{f} missing");
     }
     let doc = read_json(&runs[0].join("result.json"));
-    assert_eq!(doc["schema_version"], 1);
+    assert_eq!(doc["schema_version"], 2);
     assert_eq!(doc["verdict"], "accepted");
     let history = std::fs::read_to_string(c.path("out/line-a/history.jsonl")).expect("history");
     assert_eq!(history.lines().count(), 1);
@@ -319,7 +319,7 @@ fn drift_passes_against_itself_and_fails_against_a_shifted_history() {
     );
     run_with_epoch(&c, &["run", "r.toml"], "1796000000")
         .expect_code(0)
-        .expect_contains(&["no earlier accepted run"]);
+        .expect_contains(&["no earlier run whose criteria were met"]);
     run_with_epoch(&c, &["run", "r.toml"], "1796000100")
         .expect_code(0)
         .expect_contains(&["[pass] relative change of b1"]);
@@ -449,4 +449,162 @@ fn predict_forward_then_inverse_round_trips_within_1e_9() {
     c.run(&["predict", result, "--at", "s=20", "--extrapolate"])
         .expect_code(0)
         .expect_contains(&["extrapolated"]);
+}
+
+#[test]
+fn sixteen_channel_export_gives_sixteen_results_with_one_invalid_channel() {
+    let out = tempfile::tempdir().expect("tempdir");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_fitwright"))
+        .args([
+            "run",
+            "examples/logger-tl16.toml",
+            "--json",
+            "--no-history",
+            "--out",
+        ])
+        .arg(out.path())
+        .current_dir(util::repo_root())
+        .output()
+        .expect("run");
+    assert_eq!(
+        o.status.code(),
+        Some(2),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).expect("json summary");
+    let results = v["results"].as_array().expect("results");
+    assert_eq!(results.len(), 16, "one result per channel");
+    let invalid: Vec<&str> = results
+        .iter()
+        .filter(|r| r["verdict"] == "invalid")
+        .filter_map(|r| r["channel"].as_str())
+        .collect();
+    assert_eq!(
+        invalid,
+        ["CH07"],
+        "only the channel with the overload cell is invalid"
+    );
+    assert!(
+        results
+            .iter()
+            .filter(|r| r["verdict"] == "accepted")
+            .count()
+            == 15
+    );
+    assert!(
+        out.path().join("logger-tl16/CH01").is_dir()
+            && !out.path().join("logger-tl16/CH07").exists()
+    );
+}
+
+#[test]
+fn large_run_lists_the_largest_residuals_and_keeps_what_fieller_needs() {
+    // 12,000 rows of a straight line with a deterministic ripple (invented data); rows 5000
+    // and 9000 carry large outliers that the residual selection must list.
+    let n = 12_000;
+    let x: Vec<f64> = (0..n).map(|i| i as f64 * 0.01).collect();
+    let mut data = String::from("x,y\n");
+    for (i, xi) in x.iter().enumerate() {
+        let ripple = 0.01 * ((i * 7919) % 101) as f64 / 101.0 - 0.005;
+        let outlier = if i == 5000 || i == 9000 { 0.5 } else { 0.0 };
+        data.push_str(&format!("{xi},{}\n", 1.0 + 2.0 * xi + ripple + outlier));
+    }
+    let c = Case::new();
+    c.file("line.csv", &data);
+    c.file("r.toml", &line_recipe("big", ""));
+    c.run(&["run", "r.toml"]).expect_code(0);
+    let run = &run_folders(&c.path("out/big"))[0];
+    let doc = read_json(&run.join("result.json"));
+    let rows = doc["residuals"].as_array().expect("residual table");
+    assert_eq!(rows.len(), fitwright::result::RESIDUAL_ROWS_KEPT);
+    assert_eq!(doc["residual_rows"]["total"], n);
+    assert_eq!(doc["residual_rows"]["listed"], rows.len());
+    let listed: Vec<&str> = rows.iter().filter_map(|r| r["origin"].as_str()).collect();
+    assert!(
+        listed.contains(&"line 5002 of line.csv"),
+        "{:?}",
+        &listed[..5]
+    );
+    assert!(listed.contains(&"line 9002 of line.csv"));
+    // Closed forms for x = 0.01·i, i = 0..n−1: mean 0.01·(n−1)/2, Sxx = 0.01²·n(n²−1)/12.
+    let nf = n as f64;
+    let m = &doc["data"]["moments"]["x"];
+    assert_eq!(m["n"], n);
+    let mean = m["mean"].as_f64().expect("mean");
+    let sxx = m["sxx"].as_f64().expect("sxx");
+    assert!((mean - 0.01 * (nf - 1.0) / 2.0).abs() < 1e-9);
+    assert!((sxx / (1e-4 * nf * (nf * nf - 1.0) / 12.0) - 1.0).abs() < 1e-12);
+    // Fieller's interval from the stored moments equals the one from every calibration x.
+    let param = |name: &str| {
+        doc["parameters"]
+            .as_array()
+            .and_then(|ps| ps.iter().find(|p| p["name"] == name))
+            .and_then(|p| p["value"].as_f64())
+            .expect("parameter")
+    };
+    let s = doc["statistics"]["std_error"].as_f64().expect("s");
+    let line =
+        fitwright::stats::calibration::StraightLine::from_fit(param("b0"), param("b1"), s, &x)
+            .expect("line");
+    let fe = fitwright::stats::calibration::fieller(&line, 100.0, 1, 0.95).expect("fieller");
+    let fitwright::stats::calibration::FiellerSet::Bounded { lower, upper } = fe.set else {
+        panic!("bounded interval expected, got {:?}", fe.set);
+    };
+    let result = run.join("result.json");
+    let out = c.run(&[
+        "predict",
+        result.to_str().expect("path"),
+        "--inverse",
+        "y=100",
+        "--json",
+    ]);
+    out.expect_code(0);
+    let v: serde_json::Value = serde_json::from_str(&out.stdout).expect("json");
+    let text = v["inverse"][0]["fieller"]
+        .as_str()
+        .expect("fieller interval");
+    let bounds: Vec<f64> = text
+        .trim_matches(['[', ']'])
+        .split(", ")
+        .map(|t| t.parse().expect("number"))
+        .collect();
+    assert_eq!(bounds.len(), 2, "{text}");
+    assert!(
+        (bounds[0] - lower).abs() <= 1e-4 * lower.abs(),
+        "{text} vs {lower}"
+    );
+    assert!(
+        (bounds[1] - upper).abs() <= 1e-4 * upper.abs(),
+        "{text} vs {upper}"
+    );
+}
+
+#[test]
+fn version_1_results_still_give_fieller_intervals_from_their_residual_table() {
+    let c = line_case();
+    c.file("r.toml", &line_recipe("old", ""));
+    c.run(&["run", "r.toml"]).expect_code(0);
+    let run = &run_folders(&c.path("out/old"))[0];
+    let path = run.join("result.json");
+    let predict = |c: &Case| {
+        let out = c.run(&[
+            "predict",
+            path.to_str().expect("path"),
+            "--inverse",
+            "y=7",
+            "--json",
+        ]);
+        out.expect_code(0);
+        let v: serde_json::Value = serde_json::from_str(&out.stdout).expect("json");
+        v["inverse"][0]["fieller"].clone()
+    };
+    let now = predict(&c);
+    assert!(now.is_string(), "a straight line gives Fieller's interval");
+    // The same result as version 1 wrote it: no moments, every row in `residuals`.
+    let mut doc = read_json(&path);
+    doc["schema_version"] = 1.into();
+    doc["data"].as_object_mut().expect("data").remove("moments");
+    std::fs::write(&path, serde_json::to_string(&doc).expect("json")).expect("write");
+    assert_eq!(predict(&c), now);
 }

@@ -144,7 +144,7 @@ fn read_strd(path: &PathBuf) -> Strd {
 
 /// Weighted polynomial least squares by Householder QR on column-scaled,
 /// row-weighted data (test helper; the fit engine lives elsewhere).
-struct PolyFit {
+struct PolynomialFit {
     params: Vec<f64>,
     fitted: Vec<f64>,
     residuals: Vec<f64>,
@@ -153,7 +153,7 @@ struct PolyFit {
     s: f64,
 }
 
-fn poly_fit(x: &[f64], y: &[f64], w: &[f64], degree: usize) -> PolyFit {
+fn polynomial_least_squares(x: &[f64], y: &[f64], w: &[f64], degree: usize) -> PolynomialFit {
     let n = x.len();
     let p = degree + 1;
     let design = DMatrix::from_fn(n, p, |i, j| x[i].powi(j as i32));
@@ -171,7 +171,7 @@ fn poly_fit(x: &[f64], y: &[f64], w: &[f64], degree: usize) -> PolyFit {
     let residuals: Vec<f64> = y.iter().zip(&fitted).map(|(a, b)| a - b).collect();
     let ssr_w: f64 = residuals.iter().zip(w).map(|(e, wi)| wi * e * e).sum();
     let s = (ssr_w / (n - p) as f64).sqrt();
-    PolyFit {
+    PolynomialFit {
         params,
         fitted,
         residuals,
@@ -530,7 +530,7 @@ fn check_fit_statistics(case: &Case, refd: &Value) {
     assert_eq!(n, uint(refd, "n"), "{name}: n");
     let ones = vec![1.0; n];
     let w = case.w.as_deref().unwrap_or(&ones);
-    let fit = poly_fit(&case.x, &case.y, w, degree);
+    let fit = polynomial_least_squares(&case.x, &case.y, w, degree);
     let p = degree + 1;
     // statsmodels OLS on the whitened problem (reference JSON)
     assert_close(
@@ -772,7 +772,7 @@ fn pontius_statistics_match_statsmodels_and_scipy() {
     assert_eq!(x.len(), 40);
     // The test helper's fit against the NIST StRD certified values, so the
     // residuals fed to the statistics are those of the certified solution.
-    let fit = poly_fit(&x, &y, &[1.0; 40], 2);
+    let fit = polynomial_least_squares(&x, &y, &[1.0; 40], 2);
     assert_eq!(strd.certified_params.len(), 3);
     for (got, cert) in fit.params.iter().zip(&strd.certified_params) {
         assert_close(
@@ -812,7 +812,7 @@ fn pontius_statistics_match_statsmodels_and_scipy() {
         .iter()
         .find(|e| e["name"] == "pontius_mandel")
         .unwrap();
-    let line = poly_fit(&x, &y, &[1.0; 40], 1);
+    let line = polynomial_least_squares(&x, &y, &[1.0; 40], 1);
     let t = nested_f_test(line.ssr_w, 38, fit.ssr_w, 37)
         .unwrap()
         .computed()
@@ -874,7 +874,7 @@ fn band_crossing_equals_fieller_on_the_load_cell_line() {
     let r = reference();
     let d = dataset(&r, "load_cell_line");
     let (x, y) = (vec_f64(&d["x"]), vec_f64(&d["y"]));
-    let fit = poly_fit(&x, &y, &vec![1.0; x.len()], 1);
+    let fit = polynomial_least_squares(&x, &y, &vec![1.0; x.len()], 1);
     let line = StraightLine::from_fit(fit.params[0], fit.params[1], fit.s, &x).unwrap();
     for (y0, m) in [(0.5, 1), (0.1234, 3), (0.95, 2)] {
         let fe = fieller(&line, y0, m, 0.95).unwrap();

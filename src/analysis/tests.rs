@@ -707,6 +707,47 @@ fn explain_shows_every_transform_and_the_chosen_linearization() {
     assert!(text.contains("needs start values for b"), "{text}");
 }
 
+#[test]
+fn a_badly_scaled_coefficient_map_is_still_invertible() {
+    // y = b1·b2·x/(1 + b2·x) (the form of NIST StRD Misra1d) at its far start b1 = 500,
+    // b2 = 1e-4: 1/y = 1/b1 + (1/(b1·b2))·(1/x), g = (1/b1, 1/(b1·b2)), det ∂g/∂θ =
+    // 1/(b1³·b2²) = 0.8 — invertible, though its entries span 4e-6 to 2e5.
+    let m = spec(
+        "y = b1*b2*x*((1+b2*x)^(-1))",
+        &["x"],
+        &[("b1", Some(500.0)), ("b2", Some(1e-4))],
+        &[],
+    );
+    let a = analyze(&m, &TransformChoice::Auto);
+    let Outcome::Linearizable(l) = &a.outcome else {
+        panic!("{}", explain_text(&a));
+    };
+    assert_eq!(l.transform.to_string(), "1/y");
+}
+
+#[test]
+fn a_coefficient_map_singular_at_the_start_is_refused_with_the_parameter() {
+    // g = (a², b) has ∂g/∂a = 2a = 0 at the start a = 0, whatever the scaling.
+    let m = spec(
+        "y = a^2*x + b*x^2",
+        &["x"],
+        &[("a", Some(0.0)), ("b", Some(1.0))],
+        &[],
+    );
+    let a = analyze(&m, &TransformChoice::Auto);
+    let Outcome::NotIdentifiable {
+        parameters, reason, ..
+    } = &a.outcome
+    else {
+        panic!("{}", explain_text(&a));
+    };
+    assert_eq!(parameters, &["a"]);
+    assert!(
+        reason.contains("singular Jacobian at a = 0, b = 1"),
+        "{reason}"
+    );
+}
+
 /// The deepest equations the parser accepts, with parameters deep inside, through the whole
 /// analysis (every auto transform, expansion, derivatives, conditions, back-transform) and
 /// its explanation, on a 2 MiB thread (the default of test threads and of the batch's

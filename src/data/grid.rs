@@ -31,6 +31,28 @@ impl Cell {
     }
 }
 
+/// A cell as [`Grid::cell`] lends it: text borrowed from the grid.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum CellRef<'a> {
+    Text(&'a str),
+    Number(f64),
+    Bool(bool),
+    Error(&'a str),
+    Empty,
+}
+
+impl Cell {
+    pub fn as_ref(&self) -> CellRef<'_> {
+        match self {
+            Cell::Text(t) => CellRef::Text(t),
+            Cell::Number(v) => CellRef::Number(*v),
+            Cell::Bool(b) => CellRef::Bool(*b),
+            Cell::Error(e) => CellRef::Error(e),
+            Cell::Empty => CellRef::Empty,
+        }
+    }
+}
+
 /// A data row.
 #[derive(Debug, Clone)]
 pub struct GridRow {
@@ -38,6 +60,8 @@ pub struct GridRow {
     pub number: usize,
     /// Byte offset of the line's start (text files).
     pub offset: usize,
+    /// The cells of a workbook row; empty for a text file, whose cells are in
+    /// [`Grid::text`] (read them with [`Grid::cell`]).
     pub cells: Vec<Cell>,
 }
 
@@ -48,7 +72,88 @@ pub struct Grid {
     /// Trimmed cells of the units row (`units_row = true`).
     pub units: Option<Vec<String>>,
     pub rows: Vec<GridRow>,
+    /// The cells of a text file: data row `i` is record `first + i`.
+    pub text: Option<TextRows>,
     pub place: Place,
+}
+
+/// The records of a text file, stored flat: one buffer holding the text of every field and
+/// the end of each field, so a million rows take a few large buffers instead of a string
+/// per cell and a vector per row.
+#[derive(Debug, Clone, Default)]
+pub struct TextCells {
+    text: String,
+    /// End in `text` of each field.
+    ends: Vec<usize>,
+    /// Index in `ends` of each record's first field, plus one entry past the last record.
+    starts: Vec<usize>,
+}
+
+impl TextCells {
+    pub fn new() -> TextCells {
+        TextCells {
+            starts: vec![0],
+            ..TextCells::default()
+        }
+    }
+
+    /// Append one record.
+    pub fn push<'a>(&mut self, fields: impl IntoIterator<Item = &'a str>) {
+        for f in fields {
+            self.text.push_str(f);
+            self.ends.push(self.text.len());
+        }
+        self.starts.push(self.ends.len());
+    }
+
+    /// Number of fields of a record (0 past the end).
+    pub fn width(&self, record: usize) -> usize {
+        match (self.starts.get(record), self.starts.get(record + 1)) {
+            (Some(a), Some(b)) => b - a,
+            _ => 0,
+        }
+    }
+
+    /// Field `i` of a record.
+    pub fn field(&self, record: usize, i: usize) -> Option<&str> {
+        if i >= self.width(record) {
+            return None;
+        }
+        let k = self.starts.get(record)? + i;
+        let end = *self.ends.get(k)?;
+        let start = if k == 0 { 0 } else { *self.ends.get(k - 1)? };
+        self.text.get(start..end)
+    }
+
+    /// Every field of a record.
+    pub fn fields(&self, record: usize) -> impl Iterator<Item = &str> {
+        (0..self.width(record)).filter_map(move |i| self.field(record, i))
+    }
+}
+
+/// The cells of a text grid and the record of its first data row.
+#[derive(Debug, Clone)]
+pub struct TextRows {
+    pub cells: TextCells,
+    pub first: usize,
+}
+
+impl Grid {
+    /// Cell `col` of data row `row` (`None` past the end of a short row).
+    pub fn cell(&self, row: usize, col: usize) -> Option<CellRef<'_>> {
+        match &self.text {
+            Some(t) => t.cells.field(t.first + row, col).map(CellRef::Text),
+            None => self.rows.get(row)?.cells.get(col).map(Cell::as_ref),
+        }
+    }
+
+    /// Number of cells of data row `row`.
+    pub fn width(&self, row: usize) -> usize {
+        match &self.text {
+            Some(t) => t.cells.width(t.first + row),
+            None => self.rows.get(row).map_or(0, |r| r.cells.len()),
+        }
+    }
 }
 
 /// How to point at a cell of the grid in a message.
@@ -63,8 +168,9 @@ pub struct TextPlace {
     pub path: PathBuf,
     /// The decoded file, quoted in messages.
     pub original: String,
-    /// The same text with skipped and comment lines blanked (same offsets).
-    pub blanked: String,
+    /// The same text with skipped and comment lines blanked (same offsets); `None` when no
+    /// line was blanked, so that the file is not held twice.
+    pub blanked: Option<String>,
     pub format: Format,
     pub delimiter: u8,
     pub header_offset: Option<usize>,
@@ -120,7 +226,13 @@ impl Place {
                 };
                 match offset {
                     Some(o) => {
-                        let (at, width) = field_offset(&t.blanked, o, t.format, t.delimiter, col);
+                        let (at, width) = field_offset(
+                            t.blanked.as_deref().unwrap_or(&t.original),
+                            o,
+                            t.format,
+                            t.delimiter,
+                            col,
+                        );
                         err.at(locate_in(&t.path, &t.original, at..at + width))
                     }
                     None => err.in_file(&t.path),

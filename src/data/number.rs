@@ -1,6 +1,8 @@
 //! Numbers written as text: the decimal mark, thousands separators and the cells that are not
 //! numbers (SPEC §13, §15). Pure functions, shared by text files and text cells of workbooks.
 
+use std::borrow::Cow;
+
 /// How numbers are written in a file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub struct NumberFormat {
@@ -52,7 +54,7 @@ pub fn parse_number(raw: &str, f: NumberFormat) -> Parsed {
         if ungrouped.contains('.') {
             return Parsed::Bad;
         }
-        ungrouped.replace(',', ".")
+        Cow::Owned(ungrouped.replace(',', "."))
     } else {
         if ungrouped.contains(',') {
             return Parsed::Bad;
@@ -67,10 +69,11 @@ pub fn parse_number(raw: &str, f: NumberFormat) -> Parsed {
     }
 }
 
-/// The number without its thousands separators, or `None` when they are misplaced.
-fn remove_grouping(t: &str, f: NumberFormat) -> Option<String> {
-    if !t.chars().any(|c| f.is_separator(c)) {
-        return Some(t.to_string());
+/// The number without its thousands separators, or `None` when they are misplaced. Borrowed
+/// when there are none (the common case: no allocation per cell).
+fn remove_grouping(t: &str, f: NumberFormat) -> Option<Cow<'_, str>> {
+    if f.thousands.is_none() || !t.chars().any(|c| f.is_separator(c)) {
+        return Some(Cow::Borrowed(t));
     }
     let (sign, rest) = match t.strip_prefix(['+', '-']) {
         Some(r) => (&t[..1], r),
@@ -96,7 +99,7 @@ fn remove_grouping(t: &str, f: NumberFormat) -> Option<String> {
     if !first_ok || groups.iter().skip(1).any(|g| g.len() != 3) {
         return None;
     }
-    Some(format!("{sign}{}{tail}", groups.concat()))
+    Some(Cow::Owned(format!("{sign}{}{tail}", groups.concat())))
 }
 
 /// A hint for a cell that [`parse_number`] called [`Parsed::Bad`], when the cause is likely a

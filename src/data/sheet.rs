@@ -213,6 +213,7 @@ where
         header,
         units,
         rows,
+        text: None,
         place: Place::Sheet(SheetPlace {
             path: path.to_path_buf(),
             sheet: name,

@@ -3,6 +3,8 @@
 //! Each file is read once: bytes → SHA-256 (checked against a pinned hash) → a [`Grid`] (text
 //! decoded and split by [`super::text`], or a workbook sheet read by [`super::sheet`]) → the
 //! wanted columns as numbers, the `by` and `groups` columns as labels, the units row as units.
+//! The numbers of a text grid are parsed up front in parallel (`parse_ahead`); the row loop
+//! keeps the order of messages and skipped rows.
 //!
 //! A bad cell normally stops the load at once. In lenient mode (recipes with `by`, where one
 //! channel must not stop the others) the row is set aside with its error and its channel, and
@@ -13,7 +15,7 @@ use std::ops::Range;
 use std::path::{Path, PathBuf};
 
 use super::files::MatchedFile;
-use super::grid::{Cell, Grid, GridRow, Place, RowAt};
+use super::grid::{CellRef, Grid, GridRow, Place, RowAt};
 use super::number::{NumberFormat, Parsed, bad_number_help, number_label, parse_number};
 use super::{Dataset, LoadedFile, RejectedRow, RowOrigin, SkippedRow, Wanted};
 use crate::error::{Error, Result, did_you_mean};
@@ -67,6 +69,8 @@ pub fn read_all(
         } else {
             let text =
                 super::decode::decode(&bytes, &file.path, spec.encoding.as_ref().map(|e| e.value))?;
+            // The decoded text is kept for messages; the bytes are not needed any more.
+            drop(bytes);
             super::text::read_text(spec, &file.path, text, format)?
         };
         let parsed = extract(recipe, &grid, wanted, lenient)?;
@@ -257,7 +261,10 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     let width = if grid.header.is_some() {
         header.len()
     } else {
-        grid.rows.iter().map(|r| r.cells.len()).max().unwrap_or(0)
+        (0..grid.rows.len())
+            .map(|i| grid.width(i))
+            .max()
+            .unwrap_or(0)
     };
     let mut indices: Vec<Option<usize>> = Vec::new();
     for w in wanted {
@@ -368,6 +375,14 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     let mut skipped = Vec::new();
     let mut rejected = Vec::new();
     let mut row_values = vec![0.0; cols_idx.len()];
+    let ahead: Vec<Vec<f64>> = if is_sheet {
+        Vec::new()
+    } else {
+        cols_idx
+            .iter()
+            .map(|&ci| parse_ahead(grid, ci, fmt))
+            .collect()
+    };
     let skip = |row: &GridRow, column: &str, reason: &str, channel: Option<&String>| SkippedRow {
         file: path.to_path_buf(),
         line: row.number,
@@ -375,11 +390,11 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         reason: reason.to_string(),
         channel: channel.cloned(),
     };
-    'rows: for row in &grid.rows {
+    'rows: for (ri, row) in grid.rows.iter().enumerate() {
         // The channel first: a bad cell is reported under its channel.
         let channel = match &by {
             None => None,
-            Some(b) => match label_cell(grid, row, b, fmt) {
+            Some(b) => match label_cell(grid, ri, b, fmt) {
                 Ok(l) => Some(l),
                 Err(Problem::Missing(reason)) if spec.missing == Missing::Skip => {
                     skipped.push(skip(row, &column_name(header, b.index), reason, None));
@@ -408,7 +423,7 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         };
         let group = match &groups {
             None => None,
-            Some(g) => match label_cell(grid, row, g, fmt) {
+            Some(g) => match label_cell(grid, ri, g, fmt) {
                 Ok(l) => Some(l),
                 Err(Problem::Missing(reason)) if spec.missing == Missing::Skip => {
                     skipped.push(skip(
@@ -433,13 +448,24 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
             },
         };
         for (k, &ci) in cols_idx.iter().enumerate() {
+            if let Some(v) = ahead
+                .get(k)
+                .and_then(|c| c.get(ri))
+                .copied()
+                .filter(|v| !v.is_nan())
+            {
+                if let Some(slot) = row_values.get_mut(k) {
+                    *slot = v;
+                }
+                continue;
+            }
             let name = header_names.get(k).map_or("", String::as_str);
             let cell =
-                match row.cells.get(ci) {
+                match grid.cell(ri, ci) {
                     Some(c) => c,
-                    None if is_sheet => &Cell::Empty,
+                    None if is_sheet => CellRef::Empty,
                     None => {
-                        let count = row.cells.len();
+                        let count = grid.width(ri);
                         fail(place.locate(
                         RowAt::Data(row),
                         count,
@@ -496,6 +522,25 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     })
 }
 
+/// Column `ci` of a text grid parsed up front, in parallel blocks for large files: the value
+/// of every cell that holds a plain number, NaN for anything else (short rows, empty, NaN or
+/// bad cells), which the row loop then reads cell by cell as before, in row order, so errors
+/// and skipped rows are exactly those of a sequential read.
+fn parse_ahead(grid: &Grid, ci: usize, fmt: NumberFormat) -> Vec<f64> {
+    use rayon::prelude::*;
+    (0..grid.rows.len())
+        .into_par_iter()
+        .with_min_len(16_384)
+        .map(|ri| match grid.cell(ri, ci) {
+            Some(CellRef::Text(t)) => match parse_number(t, fmt) {
+                Parsed::Value(v) => v,
+                _ => f64::NAN,
+            },
+            _ => f64::NAN,
+        })
+        .collect()
+}
+
 fn column_name(header: &[String], index: usize) -> String {
     header
         .get(index)
@@ -537,13 +582,18 @@ fn problem_error(
 }
 
 /// A numeric cell.
-fn number_cell(cell: &Cell, is_sheet: bool, fmt: NumberFormat, name: &str) -> Result<f64, Problem> {
+fn number_cell(
+    cell: CellRef<'_>,
+    is_sheet: bool,
+    fmt: NumberFormat,
+    name: &str,
+) -> Result<f64, Problem> {
     match cell {
-        Cell::Number(v) if v.is_nan() => Err(Problem::Missing("NaN")),
-        Cell::Number(v) if v.is_infinite() => Err(Problem::Missing("infinite value")),
-        Cell::Number(v) => Ok(*v),
-        Cell::Empty => Err(Problem::Missing("empty cell")),
-        Cell::Text(t) if is_sheet => {
+        CellRef::Number(v) if v.is_nan() => Err(Problem::Missing("NaN")),
+        CellRef::Number(v) if v.is_infinite() => Err(Problem::Missing("infinite value")),
+        CellRef::Number(v) => Ok(v),
+        CellRef::Empty => Err(Problem::Missing("empty cell")),
+        CellRef::Text(t) if is_sheet => {
             if t.trim().is_empty() {
                 return Err(Problem::Missing("empty cell"));
             }
@@ -568,7 +618,7 @@ fn number_cell(cell: &Cell, is_sheet: bool, fmt: NumberFormat, name: &str) -> Re
                 },
             })
         }
-        Cell::Text(t) => match parse_number(t, fmt) {
+        CellRef::Text(t) => match parse_number(t, fmt) {
             Parsed::Value(v) => Ok(v),
             Parsed::Missing(reason) => Err(Problem::Missing(reason)),
             Parsed::Bad => Err(Problem::Bad {
@@ -578,11 +628,11 @@ fn number_cell(cell: &Cell, is_sheet: bool, fmt: NumberFormat, name: &str) -> Re
                 }),
             }),
         },
-        Cell::Bool(b) => Err(Problem::Bad {
+        CellRef::Bool(b) => Err(Problem::Bad {
             message: format!("the true/false cell `{b}` in column `{name}` is not a number"),
             help: format!("column `{name}` must hold numbers only; fix or remove this cell"),
         }),
-        Cell::Error(e) => Err(Problem::Bad {
+        CellRef::Error(e) => Err(Problem::Bad {
             message: format!("error value `{e}` in column `{name}`"),
             help: "the cell's formula failed in the workbook; fix it there, or remove the row"
                 .to_string(),
@@ -593,22 +643,22 @@ fn number_cell(cell: &Cell, is_sheet: bool, fmt: NumberFormat, name: &str) -> Re
 /// A label cell (`by`, `groups`): text as written (trimmed), numbers in their shortest form.
 fn label_cell(
     grid: &Grid,
-    row: &GridRow,
+    row: usize,
     col: &LabelColumn,
     fmt: NumberFormat,
 ) -> Result<String, Problem> {
     let name = column_name(grid.header.as_deref().unwrap_or(&[]), col.index);
-    match row.cells.get(col.index).unwrap_or(&Cell::Empty) {
-        Cell::Text(t) if t.trim().is_empty() => Err(Problem::Missing("empty cell")),
-        Cell::Text(t) => Ok(match parse_number(t, fmt) {
+    match grid.cell(row, col.index).unwrap_or(CellRef::Empty) {
+        CellRef::Text(t) if t.trim().is_empty() => Err(Problem::Missing("empty cell")),
+        CellRef::Text(t) => Ok(match parse_number(t, fmt) {
             Parsed::Value(v) if col.numeric_labels => number_label(v),
             _ => t.trim().to_string(),
         }),
-        Cell::Number(v) if v.is_finite() => Ok(number_label(*v)),
-        Cell::Number(_) => Err(Problem::Missing("NaN or infinite value")),
-        Cell::Bool(b) => Ok(b.to_string()),
-        Cell::Empty => Err(Problem::Missing("empty cell")),
-        Cell::Error(e) => Err(Problem::Bad {
+        CellRef::Number(v) if v.is_finite() => Ok(number_label(v)),
+        CellRef::Number(_) => Err(Problem::Missing("NaN or infinite value")),
+        CellRef::Bool(b) => Ok(b.to_string()),
+        CellRef::Empty => Err(Problem::Missing("empty cell")),
+        CellRef::Error(e) => Err(Problem::Bad {
             message: format!("error value `{e}` in the `{}` column `{name}`", col.key),
             help: "the cell's formula failed in the workbook; fix it there, or remove the row"
                 .to_string(),

@@ -6,16 +6,16 @@
 
 use std::path::Path;
 
-use super::grid::{Cell, Grid, GridRow, Place, TextPlace};
+use super::grid::{Grid, GridRow, Place, TextCells, TextPlace, TextRows};
 use crate::error::{Error, Result};
 use crate::recipe::{DataSpec, Format};
 use crate::source::locate_in;
 
-/// A record: its 1-based line, byte offset of its start, and its fields.
-struct Record {
-    line: usize,
-    offset: usize,
-    fields: Vec<String>,
+/// The records of a text: their fields, and for each its 1-based line and the byte offset of
+/// its start.
+struct Records {
+    cells: TextCells,
+    at: Vec<(usize, usize)>,
 }
 
 /// Split decoded text into a header, an optional units row and data rows.
@@ -37,7 +37,12 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
         None => spec.skip_rows,
     };
     let blanked = blank_lines(&original, skip, spec.comment.as_deref());
-    let mut recs = records(&blanked, format, delimiter, path)?.into_iter();
+    let recs = records(
+        blanked.as_deref().unwrap_or(&original),
+        format,
+        delimiter,
+        path,
+    )?;
     let what_skips = if spec.header_after.is_some() {
         "after the `header_after` marker"
     } else if spec.skip_rows > 0 || spec.comment.is_some() {
@@ -45,31 +50,44 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
     } else {
         ""
     };
+    let trimmed = |record: usize| -> Vec<String> {
+        recs.cells
+            .fields(record)
+            .map(|f| f.trim().to_string())
+            .collect()
+    };
     let mut header = None;
     let mut header_offset = None;
     let mut units = None;
     let mut units_offset = None;
+    let mut first = 0;
     if spec.header {
-        let Some(first) = recs.next() else {
+        let Some(&(_, offset)) = recs.at.first() else {
             return Err(no_rows(path, what_skips));
         };
-        header_offset = Some(first.offset);
-        header = Some(first.fields.iter().map(|f| f.trim().to_string()).collect());
+        header_offset = Some(offset);
+        header = Some(trimmed(0));
+        first = 1;
         if spec.units_row {
-            let Some(u) = recs.next() else {
+            let Some(&(_, offset)) = recs.at.get(1) else {
                 return Err(Error::input("the data file has a header but no units row")
                     .in_file(path)
                     .help("`units_row = true` reads the units from the row after the header; remove it if the file has none"));
             };
-            units_offset = Some(u.offset);
-            units = Some(u.fields.iter().map(|f| f.trim().to_string()).collect());
+            units_offset = Some(offset);
+            units = Some(trimmed(1));
+            first = 2;
         }
     }
     let rows: Vec<GridRow> = recs
-        .map(|r| GridRow {
-            number: r.line,
-            offset: r.offset,
-            cells: r.fields.into_iter().map(Cell::Text).collect(),
+        .at
+        .get(first..)
+        .unwrap_or(&[])
+        .iter()
+        .map(|&(number, offset)| GridRow {
+            number,
+            offset,
+            cells: Vec::new(),
         })
         .collect();
     if rows.is_empty() && header.is_none() {
@@ -79,6 +97,10 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
         header,
         units,
         rows,
+        text: Some(TextRows {
+            cells: recs.cells,
+            first,
+        }),
         place: Place::Text(TextPlace {
             path: path.to_path_buf(),
             original,
@@ -108,7 +130,12 @@ pub fn marker_line(text: &str, marker: &str) -> Option<usize> {
         .position(|line| line.trim().starts_with(marker))
 }
 
-fn blank_lines(text: &str, skip_rows: usize, comment: Option<&str>) -> String {
+/// The text with the first `skip_rows` lines and the comment lines replaced by spaces (line
+/// endings kept, so offsets stay those of the file); `None` when there is nothing to blank.
+fn blank_lines(text: &str, skip_rows: usize, comment: Option<&str>) -> Option<String> {
+    if skip_rows == 0 && comment.is_none() {
+        return None;
+    }
     let mut out = String::with_capacity(text.len());
     for (i, line) in text.split_inclusive('\n').enumerate() {
         let skip = i < skip_rows || comment.is_some_and(|c| line.trim_start().starts_with(c));
@@ -121,21 +148,22 @@ fn blank_lines(text: &str, skip_rows: usize, comment: Option<&str>) -> String {
             out.push_str(line);
         }
     }
-    out
+    Some(out)
 }
 
-fn records(text: &str, format: Format, delimiter: u8, path: &Path) -> Result<Vec<Record>> {
-    let mut out = Vec::new();
+/// Split the text into records in one pass; the fields go into one flat buffer.
+fn records(text: &str, format: Format, delimiter: u8, path: &Path) -> Result<Records> {
+    let mut out = Records {
+        cells: TextCells::new(),
+        at: Vec::new(),
+    };
     if format == Format::Whitespace {
         let mut offset = 0;
         for (i, line) in text.split_inclusive('\n').enumerate() {
-            let fields: Vec<String> = line.split_whitespace().map(str::to_string).collect();
-            if !fields.is_empty() {
-                out.push(Record {
-                    line: i + 1,
-                    offset,
-                    fields,
-                });
+            let mut fields = line.split_whitespace().peekable();
+            if fields.peek().is_some() {
+                out.cells.push(fields);
+                out.at.push((i + 1, offset));
             }
             offset += line.len();
         }
@@ -166,14 +194,12 @@ fn records(text: &str, format: Format, delimiter: u8, path: &Path) -> Result<Vec
                     offset += 1;
                 }
                 line += text
+                    .as_bytes()
                     .get(counted_to..offset)
-                    .map_or(0, |t| t.bytes().filter(|&b| b == b'\n').count());
+                    .map_or(0, |t| t.iter().filter(|&&b| b == b'\n').count());
                 counted_to = offset;
-                out.push(Record {
-                    line,
-                    offset,
-                    fields: rec.iter().map(str::to_string).collect(),
-                });
+                out.cells.push(rec.iter());
+                out.at.push((line, offset));
             }
             Err(e) => {
                 let (line, offset) = e
@@ -265,16 +291,18 @@ mod tests {
     fn records_after_crlf_start_on_their_own_line() {
         let text = "T;R\r\n1;2\r\n\r\n3;x\r\n";
         let recs = records(text, Format::Csv, b';', Path::new("d.csv")).expect("valid csv");
-        let at: Vec<(usize, usize)> = recs.iter().map(|r| (r.line, r.offset)).collect();
-        assert_eq!(at, [(1, 0), (2, 5), (4, 12)]);
+        assert_eq!(recs.at, [(1, 0), (2, 5), (4, 12)]);
+        assert_eq!(recs.cells.fields(2).collect::<Vec<_>>(), ["3", "x"]);
+        assert_eq!(recs.cells.width(1), 2);
         assert_eq!(field_offset(text, 12, Format::Csv, b';', 1), (14, 1));
     }
 
     #[test]
     fn blanking_keeps_offsets_and_line_endings() {
         let text = "skip me\r\n# note\nT,R\n";
-        let out = blank_lines(text, 1, Some("#"));
+        let out = blank_lines(text, 1, Some("#")).expect("lines to blank");
         assert_eq!(out.len(), text.len());
         assert_eq!(out, "       \r\n      \nT,R\n");
+        assert_eq!(blank_lines(text, 0, None), None);
     }
 }

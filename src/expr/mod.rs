@@ -32,7 +32,7 @@ pub use error::{EvalError, ExprError, MAX_DEPTH, MAX_SOURCE_CHARS};
 pub use parser::{Equation, parse_equation, parse_expression, parse_filter};
 pub use recursive::eval_recursive;
 pub use resolve::resolve;
-pub use tape::{MultiTape, Symbols, Tape};
+pub use tape::{MultiTape, Symbols, Tape, TapeScratch};
 
 /// The canonical form of `expr` (value-preserving rules only; see [`simplify`] module docs).
 pub fn simplify(expr: &Expr) -> Expr {

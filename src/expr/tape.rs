@@ -11,8 +11,13 @@
 //! has one is re-evaluated row by row with the checked reference evaluator, which names
 //! the row and the sub-expression (and decides, with its short-circuit `&&`/`||`, whether
 //! the value really mattered).
+//!
+//! From [`PARALLEL_FROM`] rows on, blocks of whole chunks run in parallel on the rayon pool
+//! (the batch's pool when called from a batch), with the same values as one pass.
 
 use std::collections::HashMap;
+
+use rayon::prelude::*;
 
 use super::ast::{AddOp, CmpOp, Expr, ExprKind, Func, LogicOp, MulOp};
 use super::error::{EvalError, ExprError};
@@ -111,6 +116,15 @@ pub struct MultiTape {
     outputs: Vec<Src>,
 }
 
+/// Working memory of an evaluation: the once-per-call values and the row registers. A
+/// caller that evaluates the same tape many times (a fit) keeps one and passes it to
+/// [`MultiTape::eval_in`], so repeated evaluations allocate nothing.
+#[derive(Clone, Debug, Default)]
+pub struct TapeScratch {
+    scalars: Vec<f64>,
+    regs: Vec<Vec<f64>>,
+}
+
 /// One compiled expression.
 #[derive(Clone, Debug)]
 pub struct Tape {
@@ -143,7 +157,13 @@ impl Tape {
         params: &[f64],
         out: &mut [f64],
     ) -> Result<(), EvalError> {
-        self.inner.run(columns, params, &mut [out], false)
+        self.inner.run(
+            &mut TapeScratch::default(),
+            columns,
+            params,
+            &mut [out],
+            false,
+        )
     }
 
     /// Evaluates a filter: one `bool` per row.
@@ -326,11 +346,23 @@ impl MultiTape {
         params: &[f64],
         outs: &mut [&mut [f64]],
     ) -> Result<(), EvalError> {
-        self.run(columns, params, outs, true)
+        self.run(&mut TapeScratch::default(), columns, params, outs, true)
+    }
+
+    /// [`MultiTape::eval`] with working memory kept by the caller between calls.
+    pub fn eval_in(
+        &self,
+        scratch: &mut TapeScratch,
+        columns: &[&[f64]],
+        params: &[f64],
+        outs: &mut [&mut [f64]],
+    ) -> Result<(), EvalError> {
+        self.run(scratch, columns, params, outs, true)
     }
 
     fn run(
         &self,
+        scratch: &mut TapeScratch,
         columns: &[&[f64]],
         params: &[f64],
         outs: &mut [&mut [f64]],
@@ -366,12 +398,75 @@ impl MultiTape {
                 "data columns and outputs must all have the same number of rows".to_string(),
             ));
         }
-        let scalars = self.scalars(params);
+        let parts = parallel_parts(rows);
+        if parts <= 1 {
+            return self.run_rows(scratch, columns, params, outs, checked);
+        }
+        // Large inputs: contiguous blocks of whole chunks on the rayon pool. Each row is
+        // computed by the same instructions as in one pass (the ops are elementwise and the
+        // chunk boundaries do not move), so the values are identical; the first error in row
+        // order is reported.
+        let per = rows.div_ceil(parts).div_ceil(CHUNK) * CHUNK;
+        let mut rest: Vec<&mut [f64]> = outs.iter_mut().map(|o| &mut **o).collect();
+        let mut jobs = Vec::with_capacity(parts);
+        let mut lo = 0;
+        while lo < rows {
+            let len = per.min(rows - lo);
+            let mut mine = Vec::with_capacity(rest.len());
+            for r in rest.iter_mut() {
+                let (a, b) = std::mem::take(r).split_at_mut(len);
+                mine.push(a);
+                *r = b;
+            }
+            let cols: Vec<&[f64]> = columns.iter().map(|c| &c[lo..lo + len]).collect();
+            jobs.push((lo, cols, mine));
+            lo += len;
+        }
+        let results: Vec<Result<(), EvalError>> = jobs
+            .into_par_iter()
+            .map(|(lo, cols, mut outs)| {
+                self.run_rows(
+                    &mut TapeScratch::default(),
+                    &cols,
+                    params,
+                    &mut outs,
+                    checked,
+                )
+                .map_err(|e| EvalError {
+                    row: e.row + lo,
+                    ..e
+                })
+            })
+            .collect();
+        results.into_iter().collect()
+    }
+
+    /// [`MultiTape::run`] on one thread (shapes already checked).
+    fn run_rows(
+        &self,
+        scratch: &mut TapeScratch,
+        columns: &[&[f64]],
+        params: &[f64],
+        outs: &mut [&mut [f64]],
+        checked: bool,
+    ) -> Result<(), EvalError> {
+        let rows = outs.first().map_or(0, |o| o.len());
+        self.scalars(params, &mut scratch.scalars);
+        let scalars = scratch.scalars.as_slice();
         let scalars_bad = self
             .scalar_order
             .iter()
             .any(|&i| !scalars[i as usize].is_finite());
-        let mut regs: Vec<Vec<f64>> = vec![vec![0.0; CHUNK.min(rows.max(1))]; self.registers];
+        let width = CHUNK.min(rows.max(1));
+        let regs = &mut scratch.regs;
+        if regs.len() < self.registers {
+            regs.resize(self.registers, Vec::new());
+        }
+        for r in regs.iter_mut() {
+            if r.len() < width {
+                r.resize(width, 0.0);
+            }
+        }
         let mut lo = 0;
         while lo < rows {
             let hi = (lo + CHUNK).min(rows);
@@ -380,8 +475,8 @@ impl MultiTape {
             for ins in &self.program {
                 let mut out = std::mem::take(&mut regs[ins.out as usize]);
                 {
-                    let a = operand(ins.a, &regs, columns, &scalars, lo, hi);
-                    let b = operand(ins.b, &regs, columns, &scalars, lo, hi);
+                    let a = operand(ins.a, regs, columns, scalars, lo, hi);
+                    let b = operand(ins.b, regs, columns, scalars, lo, hi);
                     exec(ins.op, &mut out[..len], a, b);
                 }
                 if checked && !bad && !all_finite(&out[..len]) {
@@ -391,7 +486,7 @@ impl MultiTape {
             }
             for (k, src) in self.outputs.iter().enumerate() {
                 let dest = &mut outs[k][lo..hi];
-                match operand(*src, &regs, columns, &scalars, lo, hi) {
+                match operand(*src, regs, columns, scalars, lo, hi) {
                     V::S(s) => dest.copy_from_slice(s),
                     V::C(c) => dest.fill(c),
                 }
@@ -404,8 +499,10 @@ impl MultiTape {
         Ok(())
     }
 
-    fn scalars(&self, params: &[f64]) -> Vec<f64> {
-        let mut vals = vec![0.0; self.keys.len()];
+    /// The once-per-call values, into `vals` (indexed by key).
+    fn scalars(&self, params: &[f64], vals: &mut Vec<f64>) {
+        vals.clear();
+        vals.resize(self.keys.len(), 0.0);
         for &i in &self.scalar_order {
             vals[i as usize] = match self.keys[i as usize] {
                 Key::Const(bits) => f64::from_bits(bits),
@@ -419,7 +516,6 @@ impl MultiTape {
                 }
             };
         }
-        vals
     }
 
     /// Re-evaluates rows `lo..hi` with the checked reference evaluator and returns the
@@ -455,6 +551,19 @@ impl MultiTape {
         }
         Ok(())
     }
+}
+
+/// Rows from which evaluation is split across the rayon pool: below, one thread is faster
+/// than handing out work (about 32 chunks; common practice, not tuned per machine).
+const PARALLEL_FROM: usize = 32 * CHUNK;
+
+/// Into how many blocks to split `rows` rows: up to four per pool thread, each at least
+/// [`PARALLEL_FROM`]/2 rows.
+fn parallel_parts(rows: usize) -> usize {
+    if rows < PARALLEL_FROM {
+        return 1;
+    }
+    (rayon::current_num_threads() * 4).min(rows / (PARALLEL_FROM / 2))
 }
 
 fn all_finite(xs: &[f64]) -> bool {

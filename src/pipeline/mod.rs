@@ -1,7 +1,9 @@
 //! The stages of one recipe, in order: load and check the recipe, prepare the model and its
 //! data, fit, diagnose, judge, and write the run folder and the history line.
 
+pub mod compare;
 pub mod diagnostics;
+pub mod metrology;
 pub mod outputs;
 pub mod plots;
 pub mod solve;
@@ -38,6 +40,7 @@ impl Checked {
 
 /// Validate one prepared model: the analysis must not find it unidentifiable.
 fn check_prepared(recipe: &Recipe, prep: &crate::model::Prepared) -> Result<String> {
+    metrology::check_variables(recipe, &prep.model)?;
     let analysis = solve::analyse(recipe, prep)?;
     solve::refuse_unidentifiable(recipe, &analysis)?;
     Ok(rows_summary(prep))
@@ -111,6 +114,9 @@ pub struct RunSettings {
     /// Read the history only up to (not including) this run id — `verify` re-runs a past run
     /// against the history as it was then.
     pub history_before: Option<String>,
+    /// `--as-found`: judge the new data against the last curve whose criteria were met before
+    /// fitting (SPEC §14).
+    pub as_found: bool,
 }
 
 /// Where a recipe's runs and history go (SPEC §13).
@@ -233,17 +239,29 @@ pub fn compute_prepared(
     let mut prep = prep;
     solve::drop_invalid_rows(&recipe, &mut prep, &analysis)?;
     let solved = solve::solve(&recipe, &prep, &analysis)?;
-    let diag = diagnostics::compute(&recipe, &prep, &solved);
-    let start_diag = solved
-        .start
-        .as_ref()
-        .map(|s| diagnostics::compute(&recipe, &prep, s));
     let (mut history, mut warnings) = history::read(&dir.join("history.jsonl"))?;
     if let Some(before) = &settings.history_before
         && let Some(i) = history.iter().position(|h| h.run_id == *before)
     {
         history.truncate(i);
     }
+    // The diagnostics and the plots only read the fit: on large data sets each takes a
+    // noticeable share of the run, so they run side by side.
+    let ((diag, start_diag), (plots, plot_warnings)) = rayon::join(
+        || {
+            let diag = diagnostics::compute(&recipe, &prep, &solved);
+            let start_diag = solved
+                .start
+                .as_ref()
+                .map(|s| diagnostics::compute(&recipe, &prep, s));
+            (diag, start_diag)
+        },
+        || {
+            let mut plot_warnings = Vec::new();
+            let plots = plots::plots(&recipe, &prep, &solved, &history, &mut plot_warnings);
+            (plots, plot_warnings)
+        },
+    );
     let baseline = history::last_accepted(&history, None).map(|h| Baseline {
         run_id: h.run_id.clone(),
         params: h
@@ -252,7 +270,16 @@ pub fn compute_prepared(
             .map(|(k, v)| (k.clone(), v.value))
             .collect(),
     });
-    let (rows, verdict) = outputs::judge(&recipe, &prep, &solved, &diag, baseline);
+    let (rows, _) = outputs::judge(&recipe, &prep, &solved, &diag, baseline);
+    let metro = metrology::evaluate(
+        &recipe,
+        &prep,
+        &solved,
+        &history,
+        settings.as_found,
+        &dir.join("history.jsonl"),
+    )?;
+    let (rows, verdict) = metro.judge(&recipe, rows, solved.estimate.converged);
     let data_sha: Vec<String> = prep.data.files.iter().map(|f| f.sha256.clone()).collect();
     let hash = inputs_hash(&recipe.sha256, &data_sha);
     let mut run_id = report::write::run_id(settings.time, &hash)
@@ -276,10 +303,8 @@ pub fn compute_prepared(
             "the recipe has no [acceptance] criteria: this run is not judged".into(),
         );
     }
-    let mut plot_warnings = Vec::new();
-    let plots = plots::plots(&recipe, &prep, &solved, &history, &mut plot_warnings);
     warnings.extend(plot_warnings);
-    let doc = outputs::result_doc(
+    let mut doc = outputs::result_doc(
         &recipe,
         &prep,
         &solved,
@@ -292,10 +317,22 @@ pub fn compute_prepared(
         &warnings,
         start_diag.as_ref(),
     );
-    let mut doc = doc;
     doc.channel = channel.clone();
+    let comparisons = compare::compare(&recipe, &prep, &solved)?;
+    doc.compare = comparisons
+        .iter()
+        .filter_map(|c| serde_json::to_value(c).ok())
+        .collect();
+    doc.calibration = outputs::calibration_figures(&recipe, &prep, &solved)
+        .map(|c| serde_json::to_value(&c).unwrap_or_default());
+    metro.fill_result(&recipe, &mut doc);
     let mut context = outputs::report_context(&recipe, &prep, &solved, &diag, &doc, verdict, &rows);
+    metro.fill_context(&recipe, &doc, &mut context);
     context.analysis = Some(outputs::analysis_summary(&analysis));
+    context.compare = compare::rows(&comparisons);
+    if let Some(c) = outputs::calibration_figures(&recipe, &prep, &solved) {
+        context.calibration_figures = c.rows();
+    }
     if let Some(c) = &channel {
         context.title = format!("{} — channel {c}", context.title);
     }
@@ -369,6 +406,7 @@ pub fn write(c: &mut Computed, settings: &RunSettings) -> Result<PathBuf> {
             .collect(),
             verdict: c.doc.verdict.clone(),
             result: Some(format!("{}/result.json", c.doc.run_id)),
+            supersedes: c.recipe.report.supersedes.clone(),
         };
         history::append(&c.dir.join("history.jsonl"), &line)?;
     }
@@ -393,6 +431,12 @@ pub fn summary_text(c: &Computed) -> String {
     let d = &c.doc;
     let mut s = format!("{} — {}\n", d.recipe.name, d.recipe.title);
     s.push_str(&format!("  verdict: {}\n", c.verdict.wording()));
+    if let Some(af) = &d.as_found {
+        s.push_str(&format!(
+            "  as found (against run {}): {}\n",
+            af.against_run, af.summary
+        ));
+    }
     s.push_str(&format!(
         "  model: {}   ({}; {})\n",
         d.model.equation, d.fit.method_used, d.fit.stop_reason
@@ -454,6 +498,38 @@ pub fn summary_text(c: &Computed) -> String {
                 .as_deref()
                 .map(|n| format!(" ({n})"))
                 .unwrap_or_default()
+        ));
+    }
+    for c in &d.compare {
+        let eq = c.get("equation").and_then(|v| v.as_str()).unwrap_or("?");
+        let da = c
+            .get("delta_aicc")
+            .and_then(|v| v.as_f64())
+            .map_or("—".into(), |v| report::format::sig(v, 3));
+        let p = c.get("p_value").and_then(|v| v.as_f64()).map_or(
+            "no F-test (not nested)".into(),
+            |p| {
+                let t = report::format::p_value(p);
+                if t.starts_with('<') {
+                    format!("nested F-test p {t}")
+                } else {
+                    format!("nested F-test p = {t}")
+                }
+            },
+        );
+        s.push_str(&format!("  compared with {eq}: ΔAICc {da}, {p}\n"));
+    }
+    if let Some(cal) = &d.calibration {
+        let get = |k: &str| {
+            cal.get(k)
+                .and_then(|v| v.as_f64())
+                .map_or("—".into(), report::format::num)
+        };
+        let unit = cal.get("unit").and_then(|v| v.as_str()).unwrap_or("");
+        s.push_str(&format!(
+            "  LOD {} {unit} · LOQ {} {unit} (ICH Q2: 3.3·σ/slope, 10·σ/slope)\n",
+            get("lod"),
+            get("loq")
         ));
     }
     for w in &d.warnings {

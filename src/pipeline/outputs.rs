@@ -89,7 +89,6 @@ pub fn judge(
             }
         })
         .collect();
-    let value = |at: &[(String, f64)]| value_at(prep, solved, at);
     let m = Measures {
         n: st.n,
         converged: est.converged,
@@ -108,7 +107,6 @@ pub fn judge(
         max_cooks_distance: diag.max_cooks.clone(),
         params,
         baseline,
-        value_at: &value,
     };
     acceptance::judge(&recipe.acceptance, &m)
 }
@@ -202,6 +200,44 @@ fn matrix_rows(m: &nalgebra::DMatrix<f64>) -> Vec<Vec<f64>> {
         .collect()
 }
 
+/// The rows the residual table of `result.json` lists: every row up to
+/// [`RESIDUAL_ROWS_ALL`]; above, the [`RESIDUAL_ROWS_KEPT`] rows with the largest
+/// |standardized residual| (a row without one ranks by |residual| / s), in row order.
+fn residual_selection(
+    solved: &Solved,
+    diag: &Diagnostics,
+) -> (Vec<usize>, Option<ResidualSelection>) {
+    let residuals = &solved.estimate.residuals;
+    let n = residuals.len();
+    if n <= RESIDUAL_ROWS_ALL {
+        return ((0..n).collect(), None);
+    }
+    let s = solved.statistics.residual_sd;
+    let size = |i: usize| {
+        let v = match diag.standardized.get(i).copied().flatten() {
+            Some(r) => r.abs(),
+            None => residuals.get(i).map_or(0.0, |e| (e / s).abs()),
+        };
+        if v.is_nan() { f64::INFINITY } else { v }
+    };
+    let mut rows: Vec<usize> = (0..n).collect();
+    let k = RESIDUAL_ROWS_KEPT.min(n);
+    rows.select_nth_unstable_by(k - 1, |&a, &b| size(b).total_cmp(&size(a)));
+    rows.truncate(k);
+    rows.sort_unstable();
+    let rule = format!(
+        "the {k} rows with the largest |standardized residual| of {n} (every row is listed up to {RESIDUAL_ROWS_ALL} rows)"
+    );
+    (
+        rows,
+        Some(ResidualSelection {
+            total: n,
+            listed: k,
+            rule,
+        }),
+    )
+}
+
 /// Everything a run decided, as `result.json`.
 #[allow(clippy::too_many_arguments)]
 pub fn result_doc(
@@ -219,7 +255,9 @@ pub fn result_doc(
 ) -> ResultDoc {
     let x = prep.x();
     let y = prep.y();
-    let residuals = (0..prep.data.len())
+    let (listed, residual_rows) = residual_selection(solved, diag);
+    let residuals = listed
+        .into_iter()
         .map(|i| ResidualRow {
             origin: prep.data.describe_row(i),
             x: x.iter()
@@ -244,8 +282,10 @@ pub fn result_doc(
         })
         .collect();
     let mut ranges = BTreeMap::new();
+    let mut moments = BTreeMap::new();
     for (name, col) in prep.model.predictors.iter().zip(&x) {
         ranges.insert(name.clone(), range(col));
+        moments.insert(name.clone(), Moments::of(col));
     }
     ranges.insert(prep.model.response.clone(), range(y));
     let start_fit = solved.start.as_ref().map(|s| StartFit {
@@ -311,6 +351,7 @@ pub fn result_doc(
             units: recipe.data.units.clone(),
             ranges,
             weights: recipe.fit.weights.as_ref().map(|w| w.value.clone()),
+            moments,
         },
         model: ModelInfo {
             equation: prep.model.equation.clone(),
@@ -355,10 +396,13 @@ pub fn result_doc(
         statistics: statistics_doc(solved, diag),
         diagnostics: diag.to_json(),
         residuals,
+        residual_rows,
         compare: Vec::new(),
         calibration: None,
         warnings: warnings.to_vec(),
         settings: settings(recipe),
+        metrology: None,
+        as_found: None,
     }
 }
 
@@ -417,6 +461,14 @@ fn column_text(c: &ColumnRef) -> String {
 
 fn opt(v: Option<f64>) -> String {
     v.map_or("—".into(), fmt::num)
+}
+
+/// An interval end at the decimal place of the standard error (GUM 7.2.6), or [`opt`].
+fn rounded_like(v: Option<f64>, se: Option<f64>) -> String {
+    match (v, se) {
+        (Some(v), Some(se)) => fmt::value_with_uncertainty(v, se).0,
+        (v, _) => opt(v),
+    }
 }
 
 /// The report context of a run.
@@ -561,7 +613,12 @@ pub fn report_context(
             .iter()
             .map(|p| report::ParameterRow {
                 name: p.name.clone(),
-                value: fmt::full(p.value),
+                // GUM 7.2.6: the value to the decimal place of its 2-digit standard error; full
+                // precision is in the coefficient table.
+                value: p.std_error.map_or_else(
+                    || fmt::full(p.value),
+                    |se| fmt::value_with_uncertainty(p.value, se).0,
+                ),
                 std_error: p.std_error.map_or_else(
                     || {
                         if p.fixed {
@@ -572,11 +629,11 @@ pub fn report_context(
                             "—".into()
                         }
                     },
-                    fmt::num,
+                    fmt::uncertainty,
                 ),
                 rel_std_error: p.rel_std_error.map_or("—".into(), |r| fmt::percent(r, 3)),
-                ci_low: opt(p.ci_low),
-                ci_high: opt(p.ci_high),
+                ci_low: rounded_like(p.ci_low, p.std_error),
+                ci_high: rounded_like(p.ci_high, p.std_error),
                 unit: p.unit.clone(),
                 note: if p.fixed {
                     Some("held fixed".into())
@@ -712,7 +769,8 @@ pub fn analysis_summary(a: &crate::analysis::Analysis) -> report::AnalysisSummar
         }),
         derivation: crate::analysis::explain_text(a)
             .lines()
-            .map(str::to_string)
+            .filter(|l| !l.trim().is_empty())
+            .map(|l| l.trim_end().to_string())
             .collect(),
         basis: lin.map_or_else(Vec::new, |l| {
             l.basis
@@ -795,7 +853,7 @@ fn difference_table(
         .zip(&b)
         .filter(|(x, _)| !x.fixed)
         .map(|(x, y)| {
-            let d = x.value - y.value;
+            let d = y.value - x.value;
             report::DifferenceRow {
                 name: x.name.clone(),
                 from: fmt::full(x.value),
@@ -822,9 +880,104 @@ fn difference_table(
         from_label: "linearized start".into(),
         to_label: "refined".into(),
         note: Some(format!(
-            "the difference is the bias of the linearized fit (start − refined, also in units of the refined standard error). Linearized start: {start_line}; refined: {}",
+            "refined − linearized start: the bias of the linearized fit, also in units of the refined standard error. Linearized start: {start_line}; refined: {}",
             fit_line(&doc.statistics, &doc.diagnostics)
         )),
         rows,
     }
+}
+
+/// Detection and quantification limits of a straight-line calibration (ICH Q2(R1)):
+/// LOD = 3.3·σ/b, LOQ = 10·σ/b, σ the unweighted residual SD of the line (or the standard
+/// error of the intercept with `[limits] sigma = "intercept"`), b the slope; in predictor units.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct CalibrationFigures {
+    pub lod: f64,
+    pub loq: f64,
+    pub sigma: f64,
+    pub sigma_kind: String,
+    pub slope: f64,
+    pub unit: String,
+}
+
+impl CalibrationFigures {
+    pub fn rows(&self) -> Vec<report::StatRow> {
+        let note = Some(format!(
+            "ICH Q2(R1): 3.3·σ/slope and 10·σ/slope with σ = {} ({}); they assume a linear, homoscedastic response near the limit",
+            fmt::num(self.sigma),
+            self.sigma_kind
+        ));
+        let u = if self.unit.is_empty() {
+            String::new()
+        } else {
+            format!(" {}", self.unit)
+        };
+        let mut a = report::StatRow::new(
+            "lod",
+            "limit of detection (LOD)",
+            format!("{}{u}", fmt::num(self.lod)),
+        );
+        a.note = note.clone();
+        let mut b = report::StatRow::new(
+            "loq",
+            "limit of quantification (LOQ)",
+            format!("{}{u}", fmt::num(self.loq)),
+        );
+        b.note = note;
+        vec![a, b]
+    }
+}
+
+/// LOD and LOQ when the model is a straight line `b0 + b1·x` in its one predictor.
+pub fn calibration_figures(
+    recipe: &Recipe,
+    prep: &Prepared,
+    solved: &Solved,
+) -> Option<CalibrationFigures> {
+    if prep.model.predictors.len() != 1
+        || solved.names.len() != 2
+        || solved.estimate.method_used != "linear"
+    {
+        return None;
+    }
+    let x = &prep.model.predictors[0];
+    let rhs = prep.model.rhs_with_fixed();
+    let slope_expr = expr::simplify(&expr::derivative(&rhs, x));
+    if slope_expr.mentions(x) {
+        return None;
+    }
+    let l = |n: &str| {
+        solved
+            .names
+            .iter()
+            .position(|p| p == n)
+            .and_then(|i| solved.estimate.params.get(i).copied())
+    };
+    let slope = expr::eval_recursive(&slope_expr, &l).ok()?;
+    let (sigma, kind) = match recipe.limits.sigma {
+        crate::recipe::LimitsSigma::Residual => (
+            rms_residual(solved),
+            "unweighted residual SD of the line".to_string(),
+        ),
+        crate::recipe::LimitsSigma::Intercept => {
+            // The intercept is the parameter whose basis function is the constant.
+            let i = solved
+                .names
+                .iter()
+                .position(|n| expr::simplify(&expr::derivative(&rhs, n)).to_string() == "1")?;
+            (
+                solved.uncertainty.std_errors.get(i).copied().flatten()?,
+                "standard error of the intercept".to_string(),
+            )
+        }
+    };
+    let d = crate::stats::calibration::detection_limits(sigma, slope).ok()?;
+    Some(CalibrationFigures {
+        lod: d.lod,
+        loq: d.loq,
+        sigma,
+        sigma_kind: kind,
+        slope,
+        unit: recipe.data.unit(x).to_string(),
+    })
 }

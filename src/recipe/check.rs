@@ -21,6 +21,12 @@ const ROOT_KEYS: &[&str] = &[
     "compare",
     "limits",
     "report",
+    "item",
+    "procedure",
+    "standards",
+    "conditions",
+    "uncertainty",
+    "decision",
 ];
 const DATA_KEYS: &[&str] = &[
     "files",
@@ -58,10 +64,12 @@ const FIT_KEYS: &[&str] = &[
 ];
 const PARAM_CRITERIA_KEYS: &[&str] = &["min", "max", "rel_std_error_max"];
 const DRIFT_KEYS: &[&str] = &["max_rel_change", "max_abs_change"];
-const POINT_KEYS: &[&str] = &["at", "expect", "tolerance"];
+const POINT_KEYS: &[&str] = &["at", "expect", "tolerance", "tolerance_x"];
+const BACK_CALC_KEYS: &[&str] = &["within", "at_lowest", "min_fraction"];
+const DRIFT_CURVE_KEYS: &[&str] = &["max_abs_change", "axis"];
 const COMPARE_KEYS: &[&str] = &["models"];
 const LIMITS_KEYS: &[&str] = &["sigma"];
-const REPORT_KEYS: &[&str] = &["formats", "dir", "signoff", "templates"];
+const REPORT_KEYS: &[&str] = &["formats", "dir", "signoff", "templates", "supersedes"];
 
 /// Validate a raw recipe and build the checked [`Recipe`].
 pub fn check_recipe(raw: RawRecipe, sha256: String) -> Result<Recipe> {
@@ -143,8 +151,10 @@ pub fn check_recipe(raw: RawRecipe, sha256: String) -> Result<Recipe> {
             dir: None,
             signoff: default_signoff(),
             templates: None,
+            supersedes: None,
         },
     };
+    let metrology = super::metrology::check(&mut root)?;
 
     Ok(Recipe {
         source: source.clone(),
@@ -160,6 +170,7 @@ pub fn check_recipe(raw: RawRecipe, sha256: String) -> Result<Recipe> {
         compare,
         limits,
         report,
+        metrology,
     })
 }
 
@@ -830,7 +841,13 @@ fn check_acceptance(s: Section<'_>) -> Result<Acceptance> {
     let mut acc = Acceptance::default();
     let source = s.source;
     let mut allowed: Vec<&str> = Acceptance::GLOBAL_KEYS.to_vec();
-    allowed.extend(["parameters", "drift", "points"]);
+    allowed.extend([
+        "parameters",
+        "drift",
+        "points",
+        "back_calculated",
+        "drift_curve",
+    ]);
     let label = s.label.clone();
     let span = s.span.clone();
     let s = Section::new(source, label, span, s.into_entries(), &allowed)?;
@@ -933,17 +950,95 @@ fn check_acceptance(s: Section<'_>) -> Result<Acceptance> {
                         t.error(item.span.clone(), "a point needs `expect`")
                             .help("the value the curve must give at `at`")
                     })?;
-                    let tolerance = non_negative(&mut t, "tolerance")?.ok_or_else(|| {
-                        t.error(item.span.clone(), "a point needs `tolerance`")
-                            .help("the largest allowed |curve − expect|, in response units")
-                    })?;
+                    let (tolerance, axis) =
+                        super::metrology::tolerance_pair(&mut t, "[[acceptance.points]]")?
+                            .ok_or_else(|| {
+                                t.error(item.span.clone(), "a point needs `tolerance` or `tolerance_x`")
+                                    .help("`tolerance`: the largest allowed |curve − expect| in response units; `tolerance_x`: the same read through the inverse, in predictor units")
+                            })?;
                     acc.points.push(PointCheck {
                         at,
                         expect: expect.value,
-                        tolerance: tolerance.value,
+                        tolerance,
+                        axis,
                         span: item.span,
                     });
                 }
+            }
+            "back_calculated" => {
+                let Value::Table(entries) = node.value else {
+                    return Err(Error::input("[acceptance] `back_calculated` must be a table")
+                        .at(source.locate(node.span))
+                        .help("write `back_calculated = { within = 0.15, at_lowest = 0.20, min_fraction = 0.75 }`"));
+                };
+                let mut t = Section::new(
+                    source,
+                    "[acceptance] back_calculated",
+                    node.span.clone(),
+                    entries,
+                    BACK_CALC_KEYS,
+                )?;
+                let mut rule = crate::metrology::assay::BackCalcRule::default();
+                for (key, slot) in [
+                    ("within", &mut rule.within),
+                    ("at_lowest", &mut rule.at_lowest),
+                    ("min_fraction", &mut rule.min_fraction),
+                ] {
+                    if let Some(v) = t.number(key)? {
+                        if !(v.value > 0.0 && v.value <= 1.0) {
+                            return Err(t
+                                .error(
+                                    v.span,
+                                    format!(
+                                        "`{key}` must be a fraction in (0, 1], found {}",
+                                        v.value
+                                    ),
+                                )
+                                .help("fractions: 0.15 is ±15 %, 0.75 is 75 % of the standards"));
+                        }
+                        *slot = v.value;
+                    }
+                }
+                acc.back_calculated = Some(Spanned::new(rule, node.span));
+            }
+            "drift_curve" => {
+                let Value::Table(entries) = node.value else {
+                    return Err(Error::input("[acceptance] `drift_curve` must be a table")
+                        .at(source.locate(node.span))
+                        .help("write [acceptance.drift_curve] with `max_abs_change = …`"));
+                };
+                let mut t = Section::new(
+                    source,
+                    "[acceptance.drift_curve]",
+                    node.span.clone(),
+                    entries,
+                    DRIFT_CURVE_KEYS,
+                )?;
+                let max = non_negative(&mut t, "max_abs_change")?.ok_or_else(|| {
+                    t.error(node.span.clone(), "[acceptance.drift_curve] needs `max_abs_change`")
+                        .help("the largest allowed |new curve − previous curve| over the calibrated range")
+                })?;
+                let axis = match t.string("axis")? {
+                    None => crate::metrology::Axis::Response,
+                    Some(a) => match a.value.as_str() {
+                        "response" => crate::metrology::Axis::Response,
+                        "predictor" => crate::metrology::Axis::Predictor,
+                        other => {
+                            return Err(choice_error(
+                                &t,
+                                a.span,
+                                "axis",
+                                other,
+                                &["response", "predictor"],
+                            ));
+                        }
+                    },
+                };
+                acc.drift_curve = Some(DriftCurveSpec {
+                    max_abs_change: max,
+                    axis,
+                    span: node.span,
+                });
             }
             _ => {
                 let v = match node.value {
@@ -1044,10 +1139,19 @@ fn check_report(mut s: Section<'_>, dir: &Path, name: &str) -> Result<ReportSpec
         Some(list) => list.into_iter().map(|t| t.value).collect(),
     };
     let templates = s.string("templates")?.map(|t| resolve(dir, &t.value));
+    let supersedes = match s.string("supersedes")? {
+        Some(v) if v.value.trim().is_empty() => {
+            return Err(s
+                .error(v.span, "`supersedes` is empty")
+                .help("give the report id of the report this one amends, e.g. \"probe-a7-20261128T101500Z-1a2b3c4d\""));
+        }
+        v => v.map(|v| v.value),
+    };
     Ok(ReportSpec {
         formats,
         dir: out_dir,
         signoff,
         templates,
+        supersedes,
     })
 }

@@ -6,6 +6,7 @@
 //! this module sees TOML.
 
 pub mod check;
+pub mod metrology;
 pub mod raw;
 mod section;
 
@@ -72,6 +73,9 @@ pub struct Recipe {
     pub compare: Vec<Text>,
     pub limits: LimitsSpec,
     pub report: ReportSpec,
+    /// `[item]`, `[procedure]`, `[[standards]]`, `[conditions]`, `[uncertainty]`,
+    /// `[decision]` (SPEC §14).
+    pub metrology: metrology::MetrologySpec,
 }
 
 impl Recipe {
@@ -448,7 +452,20 @@ pub struct DriftCriteria {
 pub struct PointCheck {
     pub at: Vec<(String, f64)>,
     pub expect: f64,
-    pub tolerance: f64,
+    /// `tolerance` (a number or the `{ rel, fs, full_scale, abs, combine }` form).
+    pub tolerance: crate::metrology::Tolerance,
+    /// `Response` for `tolerance`, `Predictor` for `tolerance_x` (read through the inverse).
+    pub axis: crate::metrology::Axis,
+    pub span: Range<usize>,
+}
+
+/// `[acceptance.drift_curve]`: the largest change of the curve over the calibrated range
+/// since the last run that met its criteria (SPEC §14).
+#[derive(Debug, Clone)]
+pub struct DriftCurveSpec {
+    pub max_abs_change: Spanned<f64>,
+    /// `axis = "response"` (default) or `"predictor"`: the unit of `max_abs_change`.
+    pub axis: crate::metrology::Axis,
     pub span: Range<usize>,
 }
 
@@ -460,6 +477,9 @@ pub struct Acceptance {
     pub parameters: Vec<(Spanned<String>, ParamCriteria)>,
     pub drift: Vec<(Spanned<String>, DriftCriteria)>,
     pub points: Vec<PointCheck>,
+    /// `back_calculated = { within, at_lowest, min_fraction }` (ICH M10).
+    pub back_calculated: Option<Spanned<crate::metrology::assay::BackCalcRule>>,
+    pub drift_curve: Option<DriftCurveSpec>,
 }
 
 impl Acceptance {
@@ -484,6 +504,8 @@ impl Acceptance {
             && self.parameters.is_empty()
             && self.drift.is_empty()
             && self.points.is_empty()
+            && self.back_calculated.is_none()
+            && self.drift_curve.is_none()
     }
 }
 
@@ -531,6 +553,8 @@ pub struct ReportSpec {
     pub dir: Option<PathBuf>,
     pub signoff: Vec<String>,
     pub templates: Option<PathBuf>,
+    /// The report id this report amends and replaces (SPEC §14).
+    pub supersedes: Option<String>,
 }
 
 /// Whether `name` may name a recipe: `[a-z0-9._-]+` (SPEC §2), not starting with `.`. The

@@ -136,6 +136,40 @@ impl<'a> Section<'a> {
         }
     }
 
+    /// A TOML local date (`due = 2027-03-01`, no quotes, no time).
+    pub fn date(&mut self, key: &str) -> Result<Option<Spanned<crate::metrology::Date>>> {
+        match self.take(key) {
+            None => Ok(None),
+            Some((k, node)) => match &node.value {
+                Value::Datetime(d) => match crate::metrology::Date::from_toml(d) {
+                    Some(date) => Ok(Some(Spanned::new(date, node.span))),
+                    None => Err(self
+                        .error(
+                            node.span.clone(),
+                            format!(
+                                "`{}` in {} must be a valid calendar date, without a time",
+                                k.name, self.label
+                            ),
+                        )
+                        .help(format!(
+                            "write only the day, e.g. `{} = 2027-03-01`",
+                            k.name
+                        ))),
+                },
+                Value::Str(text) if crate::metrology::Date::parse(text).is_some() => Err(self
+                    .error(
+                        node.span.clone(),
+                        format!(
+                            "`{}` in {} is a string, not a TOML date",
+                            k.name, self.label
+                        ),
+                    )
+                    .help(format!("remove the quotes: `{} = {text}`", k.name))),
+                _ => Err(self.type_error(&k, &node, "a date such as 2027-03-01")),
+            },
+        }
+    }
+
     pub fn boolean(&mut self, key: &str) -> Result<Option<Spanned<bool>>> {
         match self.take(key) {
             None => Ok(None),

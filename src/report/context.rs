@@ -82,6 +82,23 @@ pub struct ReportContext {
     pub signoff: Vec<String>,
     /// The caution of SPEC §12; [`ReportContext::new`] sets [`CAUTION`].
     pub caution: String,
+    /// The report as a calibration record: its id, dates and the report it amends
+    /// (SPEC §14). Empty strings in a context that is not from a run.
+    pub record: ReportRecord,
+    /// The decision rule in words, printed beside the verdict (SPEC §14, ILAC-G8).
+    pub decision_rule: Option<String>,
+    /// Item, procedure, reference standards and conditions, when the recipe gives any.
+    pub calibration: Option<CalibrationRecord>,
+    /// `run --as-found`: the new data against the last curve whose criteria were met.
+    pub as_found: Option<DeviationTable>,
+    /// The calibration points against the new curve (`[decision] tolerance`, as left).
+    pub as_left: Option<DeviationTable>,
+    /// The uncertainty of values read off the curve: a budget and read-offs across the
+    /// calibrated range (JCGM 100:2008).
+    pub uncertainty: Option<UncertaintySection>,
+    /// The fitted parameters at full precision for loading into instruments: the shortest
+    /// text that reads back to the same number ("do not round").
+    pub coefficients: Vec<CoefficientRow>,
 }
 
 impl ReportContext {
@@ -109,8 +126,175 @@ impl ReportContext {
             traceability: Traceability::default(),
             signoff: Vec::new(),
             caution: CAUTION.to_string(),
+            record: ReportRecord::default(),
+            decision_rule: None,
+            calibration: None,
+            as_found: None,
+            as_left: None,
+            uncertainty: None,
+            coefficients: Vec::new(),
         }
     }
+}
+
+/// The identity of a report as a calibration record (SPEC §14).
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct ReportRecord {
+    /// `<name>-<run id>`, unique per report.
+    pub report_id: String,
+    /// Date of issue, `YYYY-MM-DD` (the UTC date of the run).
+    pub issued_on: String,
+    /// Date of the measurements (`[conditions] measured_on`), when given.
+    pub measured_on: Option<String>,
+    /// The report id this report amends and replaces (`[report] supersedes`).
+    pub supersedes: Option<String>,
+}
+
+/// Item, procedure, standards and conditions of a calibration (SPEC §14).
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct CalibrationRecord {
+    /// `[item]`: e.g. "Description" / "Cold-room probe", "Asset or serial" / "CR-A7".
+    pub item: Vec<KeyValue>,
+    /// `[procedure]`: "Procedure" / "CAL-TH-004", "Revision" / "C".
+    pub procedure: Vec<KeyValue>,
+    /// `[[standards]]`, in recipe order.
+    pub standards: Vec<StandardRow>,
+    /// `[conditions]` quantities, in recipe order.
+    pub conditions: Vec<MeasurementCondition>,
+}
+
+/// A reference standard used.
+#[derive(Debug, Clone, Serialize)]
+pub struct StandardRow {
+    /// Asset number.
+    pub id: String,
+    /// Certificate number, or "—".
+    pub certificate: String,
+    /// Due date `YYYY-MM-DD`, or "—".
+    pub due: String,
+    /// Standard uncertainty with its variable, e.g. "0.010 in T", or "—".
+    pub uncertainty: String,
+    /// e.g. "current on the measurement date".
+    pub status: String,
+}
+
+/// A condition quantity during the measurement.
+#[derive(Debug, Clone, Serialize)]
+pub struct MeasurementCondition {
+    /// Its name in the recipe, e.g. "ambient".
+    pub name: String,
+    /// The value with its unit, e.g. "21.3 °C".
+    pub value: String,
+    /// The limits, e.g. "18 … 25 °C", or "—".
+    pub limits: String,
+    /// "within limits", "outside limits" or "no limits".
+    pub status: String,
+}
+
+/// Calibration points judged against a curve (as found or as left).
+#[derive(Debug, Clone, Serialize)]
+pub struct DeviationTable {
+    /// What the points were judged against, e.g. "the curve of run 2026…Z-1a2b3c4d
+    /// (2026-10-28), the last whose criteria were met".
+    pub against: String,
+    /// The tolerance as a procedure writes it, e.g. "±0.05 °C".
+    pub tolerance: String,
+    /// The decision rule's name, e.g. "guard-band".
+    pub rule: String,
+    /// "18 of 19 points pass (18 pass, 1 conditional pass)".
+    pub summary: String,
+    /// Whether every point passes.
+    pub within: bool,
+    /// How U of a deviation was obtained.
+    pub note: Option<String>,
+    /// Column headings of the reference and indicated values, e.g. "T reference (°C)".
+    pub reference_label: String,
+    pub indicated_label: String,
+    /// One row per point.
+    pub rows: Vec<DeviationRow>,
+}
+
+/// One point against a curve.
+#[derive(Debug, Clone, Serialize)]
+pub struct DeviationRow {
+    /// `file:line`.
+    pub origin: String,
+    /// The reference value of the compared quantity.
+    pub reference: String,
+    /// The indicated value.
+    pub indicated: String,
+    /// indicated − reference, rounded to the place of U.
+    pub deviation: String,
+    /// The tolerance at this point, "±…".
+    pub limit: String,
+    /// Expanded uncertainty U of the deviation.
+    pub expanded: String,
+    /// "pass", "conditional pass", "conditional fail", "fail".
+    pub decision: String,
+    /// `pass`, `conditional-pass`, `conditional-fail`, `fail` (for styling).
+    pub decision_code: String,
+}
+
+/// The measurement uncertainty of read-off values.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct UncertaintySection {
+    /// How k is chosen, e.g. "k = 2 (coverage probability approximately 95 % …)".
+    pub coverage: String,
+    /// Where the budget below is evaluated, e.g. "T read from one new reading
+    /// R = 15843 Ω at T = 15 °C (mid-range)".
+    pub budget_point: String,
+    /// One row per component, the fit first.
+    pub budget: Vec<BudgetRow>,
+    /// u_c with its unit, e.g. "0.0104 °C".
+    pub combined: String,
+    /// The statement of the result, e.g. "U = 0.021 °C (k = 2, coverage probability
+    /// approximately 95 %)".
+    pub expanded: String,
+    /// Read-offs across the calibrated range.
+    pub range: Vec<ReadOffRow>,
+    /// Remarks (how the fit component was obtained; why something is missing).
+    pub notes: Vec<String>,
+}
+
+/// One line of an uncertainty budget.
+#[derive(Debug, Clone, Serialize)]
+pub struct BudgetRow {
+    /// The component, e.g. "reference standard REF-PRT-2 (certificate C-2291)".
+    pub component: String,
+    /// Its standard uncertainty with the variable it is in, e.g. "0.010 (T)".
+    pub u: String,
+    /// Sensitivity coefficient c, e.g. "1" or "-0.0023".
+    pub sensitivity: String,
+    /// |c|·u in the unit of the result.
+    pub contribution: String,
+    /// Degrees of freedom, "∞" for none given.
+    pub dof: String,
+}
+
+/// A value read off the curve with its expanded uncertainty.
+#[derive(Debug, Clone, Serialize)]
+pub struct ReadOffRow {
+    /// The given value, e.g. "R = 15843 Ω".
+    pub given: String,
+    /// The value read off, GUM-rounded, e.g. "T = 15.000 ± 0.021 °C".
+    pub value: String,
+    /// u_c.
+    pub u_c: String,
+    /// The coverage factor and ν_eff, e.g. "2" or "2.13 (ν_eff = 20)".
+    pub k: String,
+    /// U.
+    pub expanded: String,
+}
+
+/// A fitted parameter at full precision.
+#[derive(Debug, Clone, Serialize)]
+pub struct CoefficientRow {
+    /// Parameter name.
+    pub name: String,
+    /// The shortest text that reads back to the same `f64` (`report::format::full`).
+    pub value: String,
+    /// Unit, when given.
+    pub unit: Option<String>,
 }
 
 /// The verdict codes of `result.json` (SPEC §7, §13).

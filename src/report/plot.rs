@@ -298,6 +298,13 @@ fn with_title(svg: &str, title: &str) -> String {
 /// Tick label text: 6 significant digits with trailing zeros removed (ticks
 /// are round numbers; `0.30000000000000004` is drawn `0.3`).
 fn tick_label(v: f64) -> String {
+    tick_label_in(v, 0.0)
+}
+
+/// Tick label on an axis spanning `span`: a tick within 1e-9·span of zero is drawn `0`
+/// (the grid steps add up to values like 3.5e-18 there).
+fn tick_label_in(v: f64, span: f64) -> String {
+    let v = if v.abs() <= 1e-9 * span.abs() { 0.0 } else { v };
     let text = super::format::sig(v, 6);
     let (mantissa, exponent) = match text.split_once('e') {
         Some((m, e)) => (m.to_string(), Some(e.to_string())),
@@ -408,7 +415,9 @@ fn frame<'a, 'b>(
         .y_label_area_size(84)
         .build_cartesian_2d(x_range.0..x_range.1, y_range.0..y_range.1)
         .map_err(plot_error(plot))?;
-    let formatter = |v: &f64| tick_label(*v);
+    let (x_span, y_span) = (x_range.1 - x_range.0, y_range.1 - y_range.0);
+    let x_formatter = |v: &f64| tick_label_in(*v, x_span);
+    let y_formatter = |v: &f64| tick_label_in(*v, y_span);
     chart
         .configure_mesh()
         .light_line_style(TRANSPARENT)
@@ -416,8 +425,8 @@ fn frame<'a, 'b>(
         .axis_style(MUTED)
         .x_labels(8)
         .y_labels(7)
-        .x_label_formatter(&formatter)
-        .y_label_formatter(&formatter)
+        .x_label_formatter(&x_formatter)
+        .y_label_formatter(&y_formatter)
         .label_style(label_font(16))
         .axis_desc_style(label_font(17))
         .x_desc(x_axis.text())
@@ -433,12 +442,50 @@ fn decimate(chart: &Chart<'_, '_>, points: &[(f64, f64)]) -> Vec<(f64, f64)> {
     if points.len() <= DECIMATE_ABOVE {
         return points.to_vec();
     }
-    let mut seen: HashSet<(i32, i32)> = HashSet::new();
+    // The cells of the plot area are a bitmap (a hash set of a million points cost more than
+    // drawing); points outside it, which the drawing clips, fall back to a set.
+    let (xs, ys) = chart.plotting_area().get_pixel_range();
+    let (cx0, cy0) = (xs.start.div_euclid(CELL_PX), ys.start.div_euclid(CELL_PX));
+    let cols = (xs.end.div_euclid(CELL_PX) - cx0 + 1).max(1);
+    let rows = (ys.end.div_euclid(CELL_PX) - cy0 + 1).max(1);
+    let mut grid = vec![false; (cols as usize) * (rows as usize)];
+    let mut outside: HashSet<(i32, i32)> = HashSet::new();
+    // The chart's mapping is affine in each axis: taken from two corners once instead of
+    // going through the chart for every point.
+    let (xr, yr) = (chart.x_range(), chart.y_range());
+    let (a, b) = (
+        chart.backend_coord(&(xr.start, yr.start)),
+        chart.backend_coord(&(xr.end, yr.end)),
+    );
+    let (sx, sy) = (
+        f64::from(b.0 - a.0) / (xr.end - xr.start),
+        f64::from(b.1 - a.1) / (yr.end - yr.start),
+    );
+    let affine = sx.is_finite() && sy.is_finite();
+    let to_pixel = |p: &(f64, f64)| {
+        if affine {
+            (
+                (f64::from(a.0) + (p.0 - xr.start) * sx).round() as i32,
+                (f64::from(a.1) + (p.1 - yr.start) * sy).round() as i32,
+            )
+        } else {
+            chart.backend_coord(p)
+        }
+    };
     points
         .iter()
         .filter(|p| {
-            let (px, py) = chart.backend_coord(p);
-            seen.insert((px.div_euclid(CELL_PX), py.div_euclid(CELL_PX)))
+            let (px, py) = to_pixel(p);
+            let (cx, cy) = (px.div_euclid(CELL_PX), py.div_euclid(CELL_PX));
+            let (u, v) = (cx - cx0, cy - cy0);
+            if (0..cols).contains(&u) && (0..rows).contains(&v) {
+                match grid.get_mut((v * cols + u) as usize) {
+                    Some(cell) => !std::mem::replace(cell, true),
+                    None => true,
+                }
+            } else {
+                outside.insert((cx, cy))
+            }
         })
         .copied()
         .collect()

@@ -64,7 +64,29 @@ impl StraightLine {
     /// values. Needs n ≥ 3, s ≥ 0 and at least two distinct x.
     pub fn from_fit(intercept: f64, slope: f64, s: f64, x: &[f64]) -> Result<Self, StatsError> {
         ensure_finite("x", x)?;
-        for (what, v) in [("intercept", intercept), ("slope", slope), ("s", s)] {
+        let n = x.len();
+        let x_mean = x.iter().sum::<f64>() / n.max(1) as f64;
+        let sxx: f64 = x.iter().map(|v| (v - x_mean).powi(2)).sum();
+        Self::from_moments(intercept, slope, s, n, x_mean, sxx)
+    }
+
+    /// The same from the calibration x values' count n, mean x̄ and Sxx = Σ(x − x̄)² (what a
+    /// stored result keeps instead of the rows).
+    pub fn from_moments(
+        intercept: f64,
+        slope: f64,
+        s: f64,
+        n: usize,
+        x_mean: f64,
+        sxx: f64,
+    ) -> Result<Self, StatsError> {
+        for (what, v) in [
+            ("intercept", intercept),
+            ("slope", slope),
+            ("s", s),
+            ("x mean", x_mean),
+            ("Sxx", sxx),
+        ] {
             if !v.is_finite() {
                 return Err(StatsError::InvalidArgument {
                     what,
@@ -78,15 +100,12 @@ impl StraightLine {
                 reason: format!("must be non-negative, got {s}"),
             });
         }
-        let n = x.len();
         if n < 3 {
             return Err(StatsError::InvalidArgument {
                 what: "x",
                 reason: format!("{n} calibration points, at least 3 needed"),
             });
         }
-        let x_mean = x.iter().sum::<f64>() / n as f64;
-        let sxx: f64 = x.iter().map(|v| (v - x_mean).powi(2)).sum();
         if sxx <= 0.0 {
             return Err(StatsError::InvalidArgument {
                 what: "x",

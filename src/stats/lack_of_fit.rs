@@ -71,12 +71,26 @@ fn group_ids(groups: Groups<'_>, n: usize) -> Result<(Vec<usize>, usize), StatsE
                     found: labels.len(),
                 });
             }
-            let mut seen = std::collections::HashMap::new();
-            for (slot, label) in ids.iter_mut().zip(labels) {
-                let next = seen.len();
-                *slot = *seen.entry(*label).or_insert(next);
+            // Labels already numbered in order of first appearance (0, 1, 0, 2, …) are the
+            // ids: no lookup per row.
+            let mut next = 0usize;
+            let dense = labels.iter().all(|&l| {
+                if l == next {
+                    next += 1;
+                }
+                l < next
+            });
+            if dense {
+                ids.copy_from_slice(labels);
+                count = next;
+            } else {
+                let mut seen = std::collections::HashMap::new();
+                for (slot, label) in ids.iter_mut().zip(labels) {
+                    let next = seen.len();
+                    *slot = *seen.entry(*label).or_insert(next);
+                }
+                count = seen.len();
             }
-            count = seen.len();
         }
     }
     Ok((ids, count))
@@ -198,6 +212,12 @@ mod tests {
             .computed()
             .unwrap();
         assert!((by_label.f - 1.5).abs() < 1e-12);
+        // Labels already numbered by first appearance take the fast path, same result.
+        let dense = lack_of_fit(&y, &[3.0; 5], None, Groups::Labels(&[0, 0, 1, 1, 2]), 1)
+            .unwrap()
+            .computed()
+            .unwrap();
+        assert_eq!(dense, by_label);
     }
 
     #[test]

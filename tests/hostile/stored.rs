@@ -49,7 +49,7 @@ fn result_of_another_schema_version_is_refused() {
     let edited = edit(&c, &result, |d| d["schema_version"] = 99.into());
     c.run(&["predict", edited, "--at", "x=1"])
         .expect_code(2)
-        .expect_contains(&["schema version 99", "reads version 1"]);
+        .expect_contains(&["schema version 99", "this fitwright reads version"]);
 }
 
 #[test]

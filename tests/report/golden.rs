@@ -34,7 +34,7 @@ fn case_dir(case: &str) -> PathBuf {
         .join(case)
 }
 
-fn check_golden(case: &str, ctx: &ReportContext) {
+pub fn check_golden(case: &str, ctx: &ReportContext) {
     let templates = Templates::builtin().expect("built-in templates compile");
     let files = render_run(ctx, &templates, &[Format::Markdown], None).expect("renders");
     let md = String::from_utf8(files.get("report.md").expect("report.md").to_vec()).expect("utf-8");

@@ -4,4 +4,5 @@
 mod demo;
 mod golden;
 mod html;
+mod record;
 mod run_folder;

@@ -229,6 +229,40 @@ fn tape_covers_more_rows_than_one_chunk() {
     }
 }
 
+#[test]
+fn tape_split_across_threads_gives_the_same_values_and_the_first_bad_row() {
+    // 300,017 rows: well above the row count from which blocks run in parallel.
+    let n = 300_017;
+    let x: Vec<f64> = (0..n).map(|i| 1.0 + i as f64 * 1e-3).collect();
+    let e = p("a*exp(-b*x) + c*ln(x)");
+    let symbols = Symbols::new(&["x"], &["a", "b", "c"]);
+    let tape = MultiTape::model_and_jacobian(&e, &symbols).unwrap();
+    let params = [2.0, 0.3, 0.5];
+    let mut outs = vec![vec![0.0; n]; 4];
+    let mut refs: Vec<&mut [f64]> = outs.iter_mut().map(|o| o.as_mut_slice()).collect();
+    tape.eval(&[&x], &params, &mut refs).unwrap();
+    // The same rows in slices below the parallel threshold, one chunk at a time.
+    for lo in (0..n).step_by(tape::CHUNK) {
+        let hi = (lo + tape::CHUNK).min(n);
+        let mut small = vec![vec![0.0; hi - lo]; 4];
+        let mut refs: Vec<&mut [f64]> = small.iter_mut().map(|o| o.as_mut_slice()).collect();
+        tape.eval(&[&x[lo..hi]], &params, &mut refs).unwrap();
+        for k in 0..4 {
+            assert_eq!(
+                &outs[k][lo..hi],
+                small[k].as_slice(),
+                "output {k}, rows {lo}..{hi}"
+            );
+        }
+    }
+    // Bad rows in two blocks: the earlier one is reported, with its row in the whole input.
+    let mut bad = x.clone();
+    bad[250_000] = -1.0;
+    bad[170_001] = 0.0;
+    let e = eval_err("ln(x)", &["x"], &[&bad], &[], &[]);
+    assert_eq!((e.row, e.subexpr.as_str()), (170_001, "ln(x)"));
+}
+
 fn eval_err(
     src: &str,
     vars: &[&str],
@@ -432,4 +466,39 @@ fn constant_folding_that_would_overflow_keeps_the_numbers() {
     for src in ["1e200*1e200*x", "x + 1e308 + 1e308"] {
         assert!(parse_expression(&canon(src)).is_ok());
     }
+}
+
+#[test]
+fn reused_scratch_gives_the_values_of_a_fresh_evaluation() {
+    // One scratch passed to tapes of different sizes, over different row counts (one row,
+    // several chunks, a few rows) and after a domain error: every result is the fresh one.
+    let small = MultiTape::compile(&[p("a*x + 1")], &Symbols::new(&["x"], &["a"])).unwrap();
+    let large = MultiTape::model_and_jacobian(
+        &p("a*exp(-b*x)/(1 + c*x^2) + sqrt(x + b)"),
+        &Symbols::new(&["x"], &["a", "b", "c"]),
+    )
+    .unwrap();
+    let mut scratch = TapeScratch::default();
+    let check = |tape: &MultiTape, scratch: &mut TapeScratch, x: &[f64], params: &[f64]| {
+        let k = tape.exprs().len();
+        let mut a = vec![vec![0.0; x.len()]; k];
+        let mut b = a.clone();
+        let mut ra: Vec<&mut [f64]> = a.iter_mut().map(|v| v.as_mut_slice()).collect();
+        let mut rb: Vec<&mut [f64]> = b.iter_mut().map(|v| v.as_mut_slice()).collect();
+        let fresh = tape.eval(&[x], params, &mut ra);
+        let reused = tape.eval_in(scratch, &[x], params, &mut rb);
+        assert_eq!(fresh.is_ok(), reused.is_ok());
+        let bits = |v: &[Vec<f64>]| -> Vec<Vec<u64>> {
+            v.iter()
+                .map(|c| c.iter().map(|x| x.to_bits()).collect())
+                .collect()
+        };
+        assert_eq!(bits(&a), bits(&b));
+    };
+    let many: Vec<f64> = (0..tape::CHUNK * 2 + 5).map(|i| i as f64 * 0.01).collect();
+    check(&large, &mut scratch, &many, &[2.0, 0.5, 0.1]);
+    check(&small, &mut scratch, &[3.0], &[1.5]);
+    check(&large, &mut scratch, &[-4.0, 1.0], &[2.0, 0.5, 0.1]);
+    check(&large, &mut scratch, &[0.0, 1.0, 2.0], &[1.0, 0.25, 0.3]);
+    check(&small, &mut scratch, &many, &[-0.5]);
 }

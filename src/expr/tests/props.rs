@@ -195,8 +195,11 @@ fn central_difference(e: &Expr, var: &str, at: &dyn Fn(&str) -> Option<f64>) -> 
     ((d1 - d2).abs() <= 1e-7 * scale).then_some(d2)
 }
 
+// A fixed seed: CI sees the same 512 cases every run, so a pass is reproducible and a
+// failure is a change in the code, not in the draw (run with PROPTEST_CASES / another seed
+// locally to explore further).
 proptest! {
-    #![proptest_config(ProptestConfig { cases: 512, max_global_rejects: 20_000, ..ProptestConfig::default() })]
+    #![proptest_config(ProptestConfig { cases: 512, max_global_rejects: 20_000, rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_201), ..ProptestConfig::default() })]
 
     #[test]
     fn print_then_parse_gives_the_same_expression(e in arith(print_leaf())) {
