@@ -42,11 +42,16 @@ fn kill_at_any_moment_leaves_whole_history_lines_and_no_half_report() {
         fractions.len()
     );
     assert!(killed > 0, "no run was killed: the test tested nothing");
-    // After all that, a run still works and sees every earlier complete run.
+    // After all that, a run still works and sees every earlier complete run, and the index
+    // lists exactly the complete runs (temporary folders of killed runs are not runs).
     let before = run_folders(&c.path("out")).len();
     c.run(&["run", "r.toml"]).expect_code(0);
-    assert_eq!(run_folders(&c.path("out")).len(), before + 1);
+    let runs = run_folders(&c.path("out")).len();
+    assert_eq!(runs, before + 1);
     check_consistent(&c.path("out"), &expected_files);
+    c.run(&["index", "out"])
+        .expect_code(0)
+        .expect_contains(&[&format!("({runs} runs)")]);
 }
 
 /// The files of a run folder, relative (`report.html`, `plots/fit.svg`, …).
