@@ -42,6 +42,9 @@ pub fn expand_files(recipe: &Recipe) -> Result<Vec<MatchedFile>> {
         } else {
             let what = if spec.resolved.is_dir() {
                 "is a folder, not a file"
+            } else if spec.resolved.exists() {
+                // A device or a pipe: never read (it may not end, as /dev/zero).
+                "is not a regular file (a device or a pipe?)"
             } else {
                 "does not exist"
             };

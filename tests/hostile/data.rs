@@ -303,3 +303,19 @@ fn groups_column_of_all_distinct_labels_runs() {
         .expect_code(0)
         .expect_contains(&["n 20000"]);
 }
+
+/// A device that never ends is not read: it is not a regular file.
+#[test]
+fn a_device_named_as_data_is_refused_without_reading_it() {
+    let r = Recipe::line();
+    let text = r.text().replace("\"d.csv\"", "\"/dev/zero\"");
+    let c = Case::new();
+    c.file("r.toml", &text);
+    refused(
+        &c,
+        &[
+            &pos(&text, "\"/dev/zero\"", 0),
+            "data file `/dev/zero` is not a regular file",
+        ],
+    );
+}
