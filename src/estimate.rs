@@ -127,6 +127,29 @@ impl LmModel for TapeModel<'_> {
             )
             .map_err(|e| self.error(e))
     }
+
+    /// The Jacobian tape's first output is the model itself, to the last bit the value tape's
+    /// (tested below): written straight into `f_out`.
+    fn eval_with_jacobian(
+        &self,
+        params: &[f64],
+        f_out: &mut [f64],
+        j_out: &mut DMatrix<f64>,
+    ) -> std::result::Result<(), ModelError> {
+        let mut outs: Vec<&mut [f64]> = Vec::with_capacity(self.p + 1);
+        outs.push(f_out);
+        for col in j_out.as_mut_slice().chunks_mut(self.n.max(1)) {
+            outs.push(col);
+        }
+        self.tape
+            .eval_in(
+                &mut self.work.borrow_mut(),
+                &self.columns,
+                params,
+                &mut outs,
+            )
+            .map_err(|e| self.error(e))
+    }
 }
 
 /// The outcome of the fit, in the original space of the model.
@@ -333,19 +356,6 @@ pub fn fit_nonlinear(
         .with_xtol(tolerance)
         .and_then(|o| o.with_ftol(tolerance))
         .map_err(|e| Error::input(format!("[fit] tolerance: {e}")))?;
-    // A model that does not respond to any parameter at the start (every derivative zero on
-    // every row, as when exp(−b·x) underflows to 0) gives the solver no direction to move.
-    if let Ok(j) = model.jacobian_at(start)
-        && !j.is_empty()
-        && j.iter().all(|v| *v == 0.0)
-    {
-        return Err(Error::input(
-            "the nonlinear fit cannot start: the model does not change with any parameter at \
-             the start values (every derivative is zero on every row, as when an exponential \
-             underflows to 0)",
-        )
-        .help("choose start values at which the model responds to its parameters, e.g. a smaller rate in exp(-b*x)"));
-    }
     let obs = Observations {
         y: prep.y(),
         weights: prep.weights.as_deref(),
@@ -353,6 +363,17 @@ pub fn fit_nonlinear(
     let out = lm::fit(model, &obs, start, Some(&bounds), &options).map_err(|e| {
         Error::input(format!("the nonlinear fit cannot start: {e}")).help("check the start values in [model.parameters]: the model must be defined on every row at the start")
     })?;
+    // A model that does not respond to any parameter at the start (every derivative zero on
+    // every row, as when exp(−b·x) underflows to 0) gives the solver no direction to move: it
+    // stops at once, by the gradient test, with the start's Jacobian.
+    if out.iterations == 0 && !out.jacobian.is_empty() && out.jacobian.iter().all(|v| *v == 0.0) {
+        return Err(Error::input(
+            "the nonlinear fit cannot start: the model does not change with any parameter at \
+             the start values (every derivative is zero on every row, as when an exponential \
+             underflows to 0)",
+        )
+        .help("choose start values at which the model responds to its parameters, e.g. a smaller rate in exp(-b*x)"));
+    }
     let converged = out.stop.converged();
     Ok(Estimate {
         method_used: "nonlinear".into(),

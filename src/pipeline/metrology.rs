@@ -28,6 +28,8 @@ pub struct Metrology {
     /// The last run whose criteria were met: its curve, run id and time.
     pub previous: Option<(ModelCurve, String, String)>,
     pub budget: Budget,
+    /// The calibration points, built only when a tolerance, back-calculation or as-found check
+    /// judges them (empty otherwise).
     pub points: Vec<CalPoint>,
     /// Rows appended after those of `acceptance::judge`.
     pub rows: Vec<CriterionRow>,
@@ -159,8 +161,13 @@ pub fn evaluate(
         Ok(c) => (Some(c), String::new()),
         Err(why) => (None, why),
     };
+    // The points are judged only by a tolerance, back-calculation or an as-found check;
+    // building them (each with its file:line label) for every row of a large data set
+    // otherwise costs a string per row for nothing.
+    let needs_points =
+        as_found || spec.decision.tolerance.is_some() || acc.back_calculated.is_some();
     let points: Vec<CalPoint> = match prep.model.predictors.as_slice() {
-        [p] => {
+        [p] if needs_points => {
             let x = prep.data.column(p).unwrap_or(&[]);
             x.iter()
                 .zip(prep.y())
