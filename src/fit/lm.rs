@@ -461,6 +461,8 @@ struct Work {
     theta: Vec<f64>,
     theta_trial: Vec<f64>,
     rstep: Vec<f64>,
+    /// J_wᵀ·rhs of the acceleration on large data sets.
+    jtr: Vec<f64>,
 }
 
 /// Fit `model` to `obs` from `start` within `bounds` (None = unbounded).
@@ -503,6 +505,7 @@ pub fn fit<M: Model + ?Sized>(
         theta: start.to_vec(),
         theta_trial: vec![0.0; p],
         rstep: vec![0.0; p],
+        jtr: vec![0.0; p],
     };
 
     // Values and Jacobian at the start in one pass for large n; on any error the two are
@@ -562,11 +565,7 @@ pub fn fit<M: Model + ?Sized>(
         for j in 0..p {
             let col = &w.jac.as_slice()[j * n..(j + 1) * n];
             let qcol = &mut w.qr.as_mut_slice()[j * n..(j + 1) * n];
-            for ((q, c), s) in qcol.iter_mut().zip(col).zip(&w.sqrt_w) {
-                *q = c * s;
-            }
-            let g = dense::dot(qcol, &w.e);
-            let c = dense::norm2(qcol);
+            let (g, c) = dense::weighted_column(col, &w.sqrt_w, &w.e, qcol);
             w.col_norm[j] = c;
             w.diag[j] = w.diag[j].max(c);
             if w.diag[j] == 0.0 {
@@ -625,7 +624,7 @@ pub fn fit<M: Model + ?Sized>(
             // per trial in the final, noise-limited iterations.
             w.a.fill(0.0);
             if ok && options.geodesic_acceleration && pred > options.ftol * ssr {
-                ok = acceleration(model, obs, &mut w, lambda, &mut nfev);
+                ok = acceleration(model, obs, &mut w, lambda, &mut nfev, speculative);
             }
             if ok {
                 // Trial point, projected into the box.
@@ -779,6 +778,7 @@ fn acceleration<M: Model + ?Sized>(
     w: &mut Work,
     lambda: f64,
     nfev: &mut usize,
+    large: bool,
 ) -> bool {
     let p = w.v.len();
     let n = obs.y.len();
@@ -792,11 +792,19 @@ fn acceleration<M: Model + ?Sized>(
     }
     // rhs = −W½·f_vv with f_vv ≈ (2/h)·((f(θ + h·v) − f(θ))/h − J·v), in one pass over the
     // rows (J·v summed over the columns in order).
-    if !second_directional(w, n, p) {
-        w.a.fill(0.0);
-        return true;
+    // Only the first p entries of Qᵀ·rhs enter the damped solve. For large n they are taken
+    // as R⁻ᵀ·(J_wᵀ·rhs) in the same pass (J_w = Q·R with the thin Q, so Qᵀ·rhs = R⁻ᵀ·J_wᵀ·rhs:
+    // exact in exact arithmetic, with a rounding error that grows with R's condition number,
+    // which is harmless here: the accelerated step is judged by its actual reduction like any
+    // other). Otherwise, or when R is singular, by the Householder reflectors.
+    let projected = large && projected_second_directional(w, n, p);
+    if !projected {
+        if !second_directional(w, n, p) {
+            w.a.fill(0.0);
+            return true;
+        }
+        dense::apply_qt(&w.qr, &w.tau, &mut w.rhs);
     }
-    dense::apply_qt(&w.qr, &w.tau, &mut w.rhs);
     if !dense::damped_solve(&w.qr, &w.diag, lambda, &w.rhs, &mut w.damped, &mut w.a) {
         w.a.fill(0.0);
         return true;
@@ -826,6 +834,47 @@ fn second_directional(w: &mut Work, n: usize, p: usize) -> bool {
         rhs[i] = -sw[i] * fvv;
     }
     finite
+}
+
+/// The first p entries of Qᵀ·rhs for rhs = −W½·f_vv (see [`second_directional`]) as
+/// R⁻ᵀ·(J_wᵀ·rhs), in one pass over the rows without storing rhs; into `w.rhs[..p]`. False
+/// when a value at θ + h·v is not finite or R has a zero on its diagonal (a held parameter,
+/// whose column was zeroed, or a rank-deficient J_w): then nothing usable was written.
+fn projected_second_directional(w: &mut Work, n: usize, p: usize) -> bool {
+    let jac = w.jac.as_slice();
+    let (ft, f, sw, v) = (&w.f_trial[..n], &w.f[..n], &w.sqrt_w[..n], &w.v[..p]);
+    let jtr = &mut w.jtr[..p];
+    jtr.fill(0.0);
+    let mut finite = true;
+    for i in 0..n {
+        finite &= ft[i].abs() < f64::INFINITY;
+        let mut jv = 0.0;
+        for (j, vj) in v.iter().enumerate() {
+            jv += jac[j * n + i] * vj;
+        }
+        let fvv = (2.0 / ACCEL_H) * ((ft[i] - f[i]) / ACCEL_H - jv);
+        let r = -sw[i] * fvv;
+        let swr = sw[i] * r;
+        for (j, g) in jtr.iter_mut().enumerate() {
+            *g += jac[j * n + i] * swr;
+        }
+    }
+    if !finite {
+        return false;
+    }
+    // Rᵀ·z = J_wᵀ·rhs by forward substitution (Rᵀ is lower triangular).
+    for k in 0..p {
+        let rkk = w.qr[(k, k)];
+        if rkk == 0.0 || w.frozen[k] {
+            return false;
+        }
+        let mut s = jtr[k];
+        for i in 0..k {
+            s -= w.qr[(i, k)] * w.rhs[i];
+        }
+        w.rhs[k] = s / rkk;
+    }
+    w.rhs[..p].iter().all(|z| z.is_finite())
 }
 
 /// Allowance for rounding inside the model's evaluation, in units of ε·|f| (common practice:
