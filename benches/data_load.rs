@@ -3,7 +3,7 @@
 //!
 //! Run `python3 scripts/bench/make_data.py large`, then `cargo bench --bench data_load`
 //! (or give another recipe as the first argument). Prints median, min and max wall time of
-//! several loads.
+//! several loads (11, or `FITWRIGHT_BENCH_RUNS`; 1 under callgrind).
 
 use std::hint::black_box;
 use std::path::PathBuf;
@@ -36,7 +36,12 @@ fn main() {
     let wanted = mapped_columns(&recipe);
     let mut times: Vec<Duration> = Vec::new();
     let mut rows = 0;
-    for _ in 0..11 {
+    let runs: usize = std::env::var("FITWRIGHT_BENCH_RUNS")
+        .ok()
+        .and_then(|r| r.parse().ok())
+        .unwrap_or(11)
+        .max(1);
+    for _ in 0..runs {
         let start = Instant::now();
         let ds = match load(&recipe, &wanted) {
             Ok(ds) => ds,
