@@ -5,6 +5,7 @@
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
+use super::fast_text;
 use super::text::field_offset;
 use crate::error::Error;
 use crate::recipe::{Format, cell_name};
@@ -131,18 +132,30 @@ impl TextCells {
     }
 }
 
-/// The cells of a text grid and the record of its first data row.
+/// The cells of a text grid.
 #[derive(Debug, Clone)]
-pub struct TextRows {
-    pub cells: TextCells,
-    pub first: usize,
+pub enum TextRows {
+    /// Fields as the csv reader gave them (quoted fields differ from their text); data row
+    /// `i` is record `first + i`.
+    Copied { cells: TextCells, first: usize },
+    /// A text without quote characters ([`fast_text::is_plain`]): the fields of a row are
+    /// split again from its line (at [`GridRow::offset`]) when asked for.
+    Split { delimiter: u8 },
 }
 
 impl Grid {
     /// Cell `col` of data row `row` (`None` past the end of a short row).
     pub fn cell(&self, row: usize, col: usize) -> Option<CellRef<'_>> {
         match &self.text {
-            Some(t) => t.cells.field(t.first + row, col).map(CellRef::Text),
+            Some(TextRows::Copied { cells, first }) => {
+                cells.field(first + row, col).map(CellRef::Text)
+            }
+            Some(TextRows::Split { delimiter }) => {
+                let line = fast_text::line_at(self.place.text()?, self.rows.get(row)?.offset);
+                fast_text::fields(line, *delimiter)
+                    .nth(col)
+                    .map(CellRef::Text)
+            }
             None => self.rows.get(row)?.cells.get(col).map(Cell::as_ref),
         }
     }
@@ -150,8 +163,22 @@ impl Grid {
     /// Number of cells of data row `row`.
     pub fn width(&self, row: usize) -> usize {
         match &self.text {
-            Some(t) => t.cells.width(t.first + row),
+            Some(TextRows::Copied { cells, first }) => cells.width(first + row),
+            Some(TextRows::Split { delimiter }) => match (self.place.text(), self.rows.get(row)) {
+                (Some(text), Some(r)) => {
+                    fast_text::fields(fast_text::line_at(text, r.offset), *delimiter).count()
+                }
+                _ => 0,
+            },
             None => self.rows.get(row).map_or(0, |r| r.cells.len()),
+        }
+    }
+
+    /// The text and delimiter of a grid read by [`fast_text`].
+    pub fn split_text(&self) -> Option<(&str, u8)> {
+        match &self.text {
+            Some(TextRows::Split { delimiter }) => Some((self.place.text()?, *delimiter)),
+            _ => None,
         }
     }
 }
@@ -202,6 +229,15 @@ impl Place {
         match self {
             Place::Text(t) => &t.path,
             Place::Sheet(s) => &s.path,
+        }
+    }
+
+    /// The text the records were read from (skipped and comment lines blanked), for a text
+    /// file.
+    pub fn text(&self) -> Option<&str> {
+        match self {
+            Place::Text(t) => Some(t.blanked.as_deref().unwrap_or(&t.original)),
+            Place::Sheet(_) => None,
         }
     }
 

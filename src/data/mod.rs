@@ -6,6 +6,8 @@
 
 mod channels;
 mod decode;
+mod fast_number;
+mod fast_text;
 mod files;
 mod grid;
 pub mod number;

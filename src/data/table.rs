@@ -50,7 +50,12 @@ pub fn read_all(
                 .in_file(&file.path)
                 .help("check that the file exists and is readable")
         })?;
-        let sha256 = crate::hash::sha256_hex(&bytes);
+        // The hash is computed on one core while the file is split on the others; its
+        // mismatch is still reported before anything the split found.
+        let (sha256, grid) = rayon::join(
+            || crate::hash::sha256_hex(&bytes),
+            || read_grid(recipe, &file.path, &bytes),
+        );
         if let Some(expected) = &file.spec.sha256
             && *expected != sha256
         {
@@ -60,19 +65,9 @@ pub fn read_all(
                 .note(format!("found  {sha256}"))
                 .help("the file changed since it was pinned: restore it, or update `sha256` after review"));
         }
-        let format = spec
-            .format
-            .unwrap_or_else(|| Format::from_extension(&file.path));
-        check_keys_apply(recipe, &file.path, format)?;
-        let grid = if format.is_spreadsheet() {
-            super::sheet::read_sheet(recipe, &file.path, &bytes, format)?
-        } else {
-            let text =
-                super::decode::decode(&bytes, &file.path, spec.encoding.as_ref().map(|e| e.value))?;
-            // The decoded text is kept for messages; the bytes are not needed any more.
-            drop(bytes);
-            super::text::read_text(spec, &file.path, text, format)?
-        };
+        // The decoded text is kept in the grid for messages; the bytes are not needed any more.
+        drop(bytes);
+        let grid = grid?;
         let parsed = extract(recipe, &grid, wanted, lenient)?;
         match &first {
             None => {
@@ -154,6 +149,19 @@ pub fn read_all(
         .filter_map(|(v, u)| u.map(|u| (v.clone(), u)))
         .collect();
     Ok(ds)
+}
+
+/// The grid of one file: a workbook sheet, or decoded text split into records.
+fn read_grid(recipe: &Recipe, path: &Path, bytes: &[u8]) -> Result<Grid> {
+    let spec = &recipe.data;
+    let format = spec.format.unwrap_or_else(|| Format::from_extension(path));
+    check_keys_apply(recipe, path, format)?;
+    if format.is_spreadsheet() {
+        super::sheet::read_sheet(recipe, path, bytes, format)
+    } else {
+        let text = super::decode::decode(bytes, path, spec.encoding.as_ref().map(|e| e.value))?;
+        super::text::read_text(spec, path, text, format)
+    }
 }
 
 /// Keys for the other kind of file are an error at the key, naming the file.
@@ -375,14 +383,12 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     let mut skipped = Vec::new();
     let mut rejected = Vec::new();
     let mut row_values = vec![0.0; cols_idx.len()];
-    let ahead: Vec<Vec<f64>> = if is_sheet {
+    let ahead: Vec<f64> = if is_sheet {
         Vec::new()
     } else {
-        cols_idx
-            .iter()
-            .map(|&ci| parse_ahead(grid, ci, fmt))
-            .collect()
+        parse_ahead(grid, &cols_idx, fmt)
     };
+    let per_row = cols_idx.len();
     let skip = |row: &GridRow, column: &str, reason: &str, channel: Option<&String>| SkippedRow {
         file: path.to_path_buf(),
         line: row.number,
@@ -448,12 +454,7 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
             },
         };
         for (k, &ci) in cols_idx.iter().enumerate() {
-            if let Some(v) = ahead
-                .get(k)
-                .and_then(|c| c.get(ri))
-                .copied()
-                .filter(|v| !v.is_nan())
-            {
+            if let Some(v) = ahead.get(ri * per_row + k).copied().filter(|v| !v.is_nan()) {
                 if let Some(slot) = row_values.get_mut(k) {
                     *slot = v;
                 }
@@ -522,21 +523,27 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     })
 }
 
-/// Column `ci` of a text grid parsed up front, in parallel blocks for large files: the value
-/// of every cell that holds a plain number, NaN for anything else (short rows, empty, NaN or
-/// bad cells), which the row loop then reads cell by cell as before, in row order, so errors
-/// and skipped rows are exactly those of a sequential read.
-fn parse_ahead(grid: &Grid, ci: usize, fmt: NumberFormat) -> Vec<f64> {
+/// Columns `cols` of a text grid parsed up front, in parallel blocks for large files, row
+/// major (`cols.len()` values per row): the value of every cell that holds a plain number,
+/// NaN for anything else (short rows, empty, NaN or bad cells), which the row loop then reads
+/// cell by cell as before, in row order, so errors and skipped rows are exactly those of a
+/// sequential read.
+fn parse_ahead(grid: &Grid, cols: &[usize], fmt: NumberFormat) -> Vec<f64> {
     use rayon::prelude::*;
+    if let Some((text, delimiter)) = grid.split_text() {
+        return super::fast_text::parse_columns(text, &grid.rows, delimiter, cols, fmt);
+    }
     (0..grid.rows.len())
         .into_par_iter()
         .with_min_len(16_384)
-        .map(|ri| match grid.cell(ri, ci) {
-            Some(CellRef::Text(t)) => match parse_number(t, fmt) {
-                Parsed::Value(v) => v,
+        .flat_map_iter(|ri| {
+            cols.iter().map(move |&ci| match grid.cell(ri, ci) {
+                Some(CellRef::Text(t)) => match parse_number(t, fmt) {
+                    Parsed::Value(v) => v,
+                    _ => f64::NAN,
+                },
                 _ => f64::NAN,
-            },
-            _ => f64::NAN,
+            })
         })
         .collect()
 }

@@ -2,10 +2,12 @@
 //!
 //! Lines before the header (`skip_rows`, or up to and including the `header_after` marker)
 //! and comment lines are blanked in place, so that line numbers and columns in messages stay
-//! those of the file. Quoted fields follow RFC 4180 (via the `csv` crate).
+//! those of the file. Quoted fields follow RFC 4180 (via the `csv` crate); a text without
+//! quote characters is split by [`super::fast_text`], which gives the same records faster.
 
 use std::path::Path;
 
+use super::fast_text;
 use super::grid::{Grid, GridRow, Place, TextCells, TextPlace, TextRows};
 use crate::error::{Error, Result};
 use crate::recipe::{DataSpec, Format};
@@ -37,12 +39,15 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
         None => spec.skip_rows,
     };
     let blanked = blank_lines(&original, skip, spec.comment.as_deref());
-    let recs = records(
-        blanked.as_deref().unwrap_or(&original),
-        format,
-        delimiter,
-        path,
-    )?;
+    let source = blanked.as_deref().unwrap_or(&original);
+    // Without quote characters the records are the lines: found in parallel, their fields
+    // not copied. Otherwise the csv reader handles the quoting.
+    let (at, cells) = if format != Format::Whitespace && fast_text::is_plain(source, delimiter) {
+        (fast_text::records(source, delimiter), None)
+    } else {
+        let recs = records(source, format, delimiter, path)?;
+        (recs.at, Some(recs.cells))
+    };
     let what_skips = if spec.header_after.is_some() {
         "after the `header_after` marker"
     } else if spec.skip_rows > 0 || spec.comment.is_some() {
@@ -51,10 +56,14 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
         ""
     };
     let trimmed = |record: usize| -> Vec<String> {
-        recs.cells
-            .fields(record)
-            .map(|f| f.trim().to_string())
-            .collect()
+        match &cells {
+            Some(cells) => cells.fields(record).map(|f| f.trim().to_string()).collect(),
+            None => at.get(record).map_or_else(Vec::new, |&(_, offset)| {
+                fast_text::fields(fast_text::line_at(source, offset), delimiter)
+                    .map(|f| f.trim().to_string())
+                    .collect()
+            }),
+        }
     };
     let mut header = None;
     let mut header_offset = None;
@@ -62,14 +71,14 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
     let mut units_offset = None;
     let mut first = 0;
     if spec.header {
-        let Some(&(_, offset)) = recs.at.first() else {
+        let Some(&(_, offset)) = at.first() else {
             return Err(no_rows(path, what_skips));
         };
         header_offset = Some(offset);
         header = Some(trimmed(0));
         first = 1;
         if spec.units_row {
-            let Some(&(_, offset)) = recs.at.get(1) else {
+            let Some(&(_, offset)) = at.get(1) else {
                 return Err(Error::input("the data file has a header but no units row")
                     .in_file(path)
                     .help("`units_row = true` reads the units from the row after the header; remove it if the file has none"));
@@ -79,8 +88,7 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
             first = 2;
         }
     }
-    let rows: Vec<GridRow> = recs
-        .at
+    let rows: Vec<GridRow> = at
         .get(first..)
         .unwrap_or(&[])
         .iter()
@@ -97,9 +105,9 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
         header,
         units,
         rows,
-        text: Some(TextRows {
-            cells: recs.cells,
-            first,
+        text: Some(match cells {
+            Some(cells) => TextRows::Copied { cells, first },
+            None => TextRows::Split { delimiter },
         }),
         place: Place::Text(TextPlace {
             path: path.to_path_buf(),
@@ -295,6 +303,73 @@ mod tests {
         assert_eq!(recs.cells.fields(2).collect::<Vec<_>>(), ["3", "x"]);
         assert_eq!(recs.cells.width(1), 2);
         assert_eq!(field_offset(text, 12, Format::Csv, b';', 1), (14, 1));
+    }
+
+    /// The records and fields of the line splitter, for comparison with the csv reader.
+    fn split_records(text: &str, delimiter: u8) -> Vec<(usize, usize, Vec<String>)> {
+        fast_text::records(text, delimiter)
+            .into_iter()
+            .map(|(line, offset)| {
+                let fields = fast_text::fields(fast_text::line_at(text, offset), delimiter)
+                    .map(str::to_string)
+                    .collect();
+                (line, offset, fields)
+            })
+            .collect()
+    }
+
+    fn csv_records(text: &str, delimiter: u8) -> Vec<(usize, usize, Vec<String>)> {
+        let recs = records(text, Format::Csv, delimiter, Path::new("d.csv")).expect("valid csv");
+        recs.at
+            .iter()
+            .enumerate()
+            .map(|(i, &(line, offset))| {
+                let fields = recs.cells.fields(i).map(str::to_string).collect();
+                (line, offset, fields)
+            })
+            .collect()
+    }
+
+    #[test]
+    fn the_line_splitter_gives_the_records_of_the_csv_reader() {
+        for text in [
+            "T;R\r\n1;2\r\n\r\n3;x\r\n",
+            "t,y\n\n\n1,2\n ,\n,,\n\t\n3,4,5\n6",
+            "a\tb\n 1 \t 2 \n\u{a0}\t\n",
+            "",
+            "\n\n",
+            "x",
+            "1,2\r\n3,4\r\n",
+            "°C,Ω\n20,1e3\n",
+            "no final line end",
+        ] {
+            let d = if text.contains('\t') {
+                b'\t'
+            } else if text.contains(';') {
+                b';'
+            } else {
+                b','
+            };
+            assert!(fast_text::is_plain(text, d), "{text:?}");
+            assert_eq!(split_records(text, d), csv_records(text, d), "{text:?}");
+        }
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig { cases: 2_000, rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_210), ..proptest::prelude::ProptestConfig::default() })]
+
+        #[test]
+        fn line_splitter_agrees_with_the_csv_reader(
+            parts in proptest::collection::vec(
+                proptest::sample::select(vec!["1", "-2.5", ",", ";", " ", "\t", "\n", "\r\n", "x", "\u{a0}", "é", ""]),
+                0..40,
+            ),
+            d in proptest::sample::select(vec![b',', b';', b'x', b'\t', b' ']),
+        ) {
+            let text = parts.concat();
+            proptest::prop_assert!(fast_text::is_plain(&text, d));
+            proptest::prop_assert_eq!(split_records(&text, d), csv_records(&text, d), "{:?}", text);
+        }
     }
 
     #[test]
