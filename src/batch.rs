@@ -140,14 +140,15 @@ where
     } else {
         None
     };
-    // No more workers than recipes: the others would only wait, and idle workers spin for
-    // a while before they sleep (`--jobs 5000` on one recipe kept two cores busy for minutes).
-    let wanted = options
-        .jobs
-        .filter(|&j| j > 0)
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    // No more workers than recipes or cores, whichever is more: a single large recipe still
+    // uses every core inside its fit, diagnostics and plots (a pool of one thread ran a
+    // million-row recipe's parallel parts one after the other), while more workers than both
+    // would only wait, and idle workers spin for a while before they sleep (`--jobs 5000` on
+    // one recipe kept two cores busy for minutes).
+    let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
+    let wanted = options.jobs.filter(|&j| j > 0).unwrap_or(cores);
     let pool = rayon::ThreadPoolBuilder::new()
-        .num_threads(wanted.min(selected.len()).max(1))
+        .num_threads(wanted.min(selected.len().max(cores)).max(1))
         .stack_size(WORKER_STACK_BYTES)
         .build()
         .map_err(|e| Error::internal(format!("cannot start worker threads: {e}")))?;
