@@ -83,6 +83,116 @@ pub(crate) fn weighted_column(c: &[f64], s: &[f64], e: &[f64], q: &mut [f64]) ->
     (g, norm)
 }
 
+/// qᵀe and ‖q‖ for q = c ⊙ s without writing q (the streaming QR weights the columns as it
+/// reads them). Same four partial sums as [`weighted_column`].
+pub(crate) fn weighted_column_sums(c: &[f64], s: &[f64], e: &[f64]) -> (f64, f64) {
+    let n = c.len().min(s.len()).min(e.len());
+    let (c, s, e) = (&c[..n], &s[..n], &e[..n]);
+    let mut g = [0.0_f64; 4];
+    let mut ss = [0.0_f64; 4];
+    let whole = n - n % 4;
+    for i in (0..whole).step_by(4) {
+        for k in 0..4 {
+            let v = c[i + k] * s[i + k];
+            g[k] += v * e[i + k];
+            ss[k] += v * v;
+        }
+    }
+    let (mut gt, mut st) = (0.0, 0.0);
+    for i in whole..n {
+        let v = c[i] * s[i];
+        gt += v * e[i];
+        st += v * v;
+    }
+    let g = (g[0] + g[1]) + (g[2] + g[3]) + gt;
+    let sum = (ss[0] + ss[1]) + (ss[2] + ss[3]) + st;
+    let norm = if sum.is_finite() && sum > 1e-280 {
+        sum.sqrt()
+    } else {
+        // Tiny or huge columns: the scaled norm of the weighted column, formed for this.
+        let q: Vec<f64> = c.iter().zip(s).map(|(c, s)| c * s).collect();
+        norm2(&q)
+    };
+    (g, norm)
+}
+
+/// Rows per block of [`streaming_qr`]: the (p + block) × (p + 1) buffer stays in the L1/L2
+/// cache for the few parameters of calibration models (common practice, not tuned).
+const QR_BLOCK: usize = 256;
+
+/// R and z = (Qᵀb)[0..p] of the QR factorization of A = J ⊙ √w (J column-major n × p in
+/// `jac`, row i scaled by `s[i]`, columns with `zero[j]` taken as 0), without storing A or Q:
+/// the rows are taken in blocks, each stacked under the current [R | z] and reduced by
+/// Householder reflections (as in [`householder_qr_in_place`]) to a new [R | z]. This is the
+/// sequential TSQR of Demmel, Grigori, Hoemmen & Langou, SIAM J. Sci. Comput. 34(1), 2012:
+/// backward stable like one Householder QR of [A | b], whose R and first p entries of Qᵀb it
+/// gives up to the signs of R's rows (each row's sign carried by z's entry). R goes to the
+/// upper triangle of the p × p `r` (zeros below), z to `z[..p]`.
+pub(crate) fn streaming_qr(
+    jac: &[f64],
+    s: &[f64],
+    zero: &[bool],
+    b: &[f64],
+    work: &mut Vec<f64>,
+    r: &mut DMatrix<f64>,
+    z: &mut [f64],
+) {
+    let n = b.len().min(s.len());
+    let p = r.ncols();
+    let ld = p + QR_BLOCK;
+    work.clear();
+    work.resize(ld * (p + 1), 0.0);
+    let mut lo = 0;
+    while lo < n {
+        let len = QR_BLOCK.min(n - lo);
+        let m = p + len;
+        for j in 0..p {
+            let dest = &mut work[j * ld + p..j * ld + m];
+            if zero.get(j).copied().unwrap_or(false) {
+                dest.fill(0.0);
+            } else {
+                let src = &jac[j * n + lo..j * n + lo + len];
+                for ((d, c), w) in dest.iter_mut().zip(src).zip(&s[lo..lo + len]) {
+                    *d = c * w;
+                }
+            }
+        }
+        work[p * ld + p..p * ld + m].copy_from_slice(&b[lo..lo + len]);
+        for j in 0..p {
+            let (left, right) = work.split_at_mut((j + 1) * ld);
+            let x = &mut left[j * ld + j..j * ld + m];
+            let alpha = x[0];
+            let tail_norm = norm2(&x[1..]);
+            if tail_norm == 0.0 {
+                continue;
+            }
+            let beta = -alpha.signum() * alpha.hypot(tail_norm);
+            let tau = (beta - alpha) / beta;
+            let inv = 1.0 / (alpha - beta);
+            for v in &mut x[1..] {
+                *v *= inv;
+            }
+            x[0] = beta;
+            let v = &x[1..];
+            for k in 0..(p - j) {
+                let ck = &mut right[k * ld + j..k * ld + m];
+                let t = tau * (ck[0] + dot(v, &ck[1..]));
+                ck[0] -= t;
+                sub_scaled(&mut ck[1..], t, v);
+            }
+            // The rows below the diagonal start the next block at zero.
+            x[1..].fill(0.0);
+        }
+        lo += len;
+    }
+    for j in 0..p {
+        for i in 0..p {
+            r[(i, j)] = if i <= j { work[j * ld + i] } else { 0.0 };
+        }
+    }
+    z[..p].copy_from_slice(&work[p * ld..p * ld + p]);
+}
+
 /// y ← y − α·x over the common length.
 #[inline]
 fn sub_scaled(y: &mut [f64], alpha: f64, x: &[f64]) {
@@ -485,6 +595,75 @@ impl ScaledQr {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn streaming_qr_gives_householders_r_and_qtb_up_to_row_signs() {
+        // Matrices of 1 to 4 columns over 1, 255, 256, 257 and 1,000 rows (block edges),
+        // values from a fixed linear congruential sequence (Knuth's MMIX constants), one
+        // column zeroed; compared with householder_qr_in_place + apply_qt on the same
+        // weighted matrix.
+        let mut state: u64 = 7;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6_364_136_223_846_793_005)
+                .wrapping_add(1_442_695_040_888_963_407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+        };
+        for p in 1..=4 {
+            for n in [p, 255, 256, 257, 1000] {
+                if n < p {
+                    continue;
+                }
+                let jac: Vec<f64> = (0..n * p).map(|_| next()).collect();
+                let sw: Vec<f64> = (0..n).map(|_| next() + 1.0).collect();
+                let b: Vec<f64> = (0..n).map(|_| next()).collect();
+                let mut zero = vec![false; p];
+                if p == 3 {
+                    zero[1] = true;
+                }
+                let mut a =
+                    DMatrix::from_fn(
+                        n,
+                        p,
+                        |i, j| {
+                            if zero[j] { 0.0 } else { jac[j * n + i] * sw[i] }
+                        },
+                    );
+                let mut tau = vec![0.0; p];
+                householder_qr_in_place(&mut a, &mut tau);
+                let mut qtb = b.clone();
+                apply_qt(&a, &tau, &mut qtb);
+                let mut r = DMatrix::zeros(p, p);
+                let mut z = vec![0.0; p];
+                let mut work = Vec::new();
+                streaming_qr(&jac, &sw, &zero, &b, &mut work, &mut r, &mut z);
+                // R_s and R_h both satisfy RᵀR = AᵀA and Rᵀz = Aᵀb (R itself is unique only
+                // up to row signs, and not at all where a column is zero), which is all the
+                // damped solve and the predicted reduction use.
+                let scale = a.iter().fold(0.0_f64, |m, v| m.max(v.abs())).max(1.0);
+                let tol = 1e-12 * scale * scale * n as f64;
+                let rh = DMatrix::from_fn(p, p, |i, j| if i <= j { a[(i, j)] } else { 0.0 });
+                let (gh, gs) = (rh.transpose() * &rh, r.transpose() * &r);
+                let zh = nalgebra::DVector::from_column_slice(&qtb[..p]);
+                let zs = nalgebra::DVector::from_column_slice(&z);
+                let (ch, cs) = (rh.transpose() * zh, r.transpose() * zs);
+                for i in 0..p {
+                    assert!((ch[i] - cs[i]).abs() <= tol, "p {p} n {n} Rᵀz[{i}]");
+                    for j in 0..p {
+                        assert!(
+                            (gh[(i, j)] - gs[(i, j)]).abs() <= tol,
+                            "p {p} n {n} RᵀR[{i},{j}]: {} vs {}",
+                            gs[(i, j)],
+                            gh[(i, j)]
+                        );
+                        if i > j {
+                            assert_eq!(r[(i, j)], 0.0, "R is upper triangular");
+                        }
+                    }
+                }
+            }
+        }
+    }
 
     #[test]
     fn weighted_column_gives_dot_and_norm2_to_the_last_bit() {
