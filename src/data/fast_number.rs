@@ -38,23 +38,28 @@ fn is_blank(b: u8) -> bool {
     matches!(b, b' ' | b'\t' | b'\r' | b'\x0b' | b'\x0c')
 }
 
+/// An optional `+` or `-` at `s[*i]`, stepped over; true for `-`.
+fn read_sign(s: &[u8], i: &mut usize) -> bool {
+    match s.get(*i) {
+        Some(b'-') => {
+            *i += 1;
+            true
+        }
+        Some(b'+') => {
+            *i += 1;
+            false
+        }
+        _ => false,
+    }
+}
+
 /// Scan a plain number with its surrounding blanks from the start of `s`, up to the first
 /// byte that cannot continue it: the number of bytes read, and the value when those bytes
 /// are a complete plain number in range of the fast path. The caller decides whether the
 /// byte after them ends the cell.
 pub fn scan_plain(s: &[u8], mark: u8) -> (Option<f64>, usize) {
     let mut i = skip_blanks(s, 0);
-    let negative = match s.get(i) {
-        Some(b'-') => {
-            i += 1;
-            true
-        }
-        Some(b'+') => {
-            i += 1;
-            false
-        }
-        _ => false,
-    };
+    let negative = read_sign(s, &mut i);
     let mut mantissa = 0u64;
     let int_digits = read_digits(s.get(i..).unwrap_or(&[]), &mut mantissa);
     i += int_digits;
@@ -69,17 +74,7 @@ pub fn scan_plain(s: &[u8], mark: u8) -> (Option<f64>, usize) {
     let mut exponent: i64 = 0;
     if matches!(s.get(i), Some(b'e' | b'E')) {
         i += 1;
-        let exp_negative = match s.get(i) {
-            Some(b'-') => {
-                i += 1;
-                true
-            }
-            Some(b'+') => {
-                i += 1;
-                false
-            }
-            _ => false,
-        };
+        let exp_negative = read_sign(s, &mut i);
         let mut e = 0u64;
         let n = read_digits(s.get(i..).unwrap_or(&[]), &mut e);
         i += n;

@@ -1100,18 +1100,23 @@ mod tests {
         (Decay { x }, y)
     }
 
-    #[test]
-    fn values_with_the_jacobian_give_the_same_iterations_to_the_last_bit() {
-        // 60,000 rows of the decay curve with a fixed, invented perturbation (a sawtooth of
-        // ±0.2), fitted from a far start once with trial values computed alone and once with
-        // them computed together with the Jacobian: same path, same bits.
+    /// 60,000 rows of the decay curve with a fixed, invented perturbation (a sawtooth of
+    /// ±0.2): above the large-data thresholds.
+    fn long_decay() -> (Decay, Vec<f64>) {
         let x: Vec<f64> = (0..60_000).map(|i| f64::from(i) * 1e-4).collect();
         let y: Vec<f64> = x
             .iter()
             .enumerate()
             .map(|(i, x)| 80.0 * (-0.35 * x).exp() + 0.04 * ((i % 11) as f64 - 5.0))
             .collect();
-        let m = Decay { x };
+        (Decay { x }, y)
+    }
+
+    #[test]
+    fn values_with_the_jacobian_give_the_same_iterations_to_the_last_bit() {
+        // Fitted from a far start once with trial values computed alone and once with them
+        // computed together with the Jacobian: same path, same bits.
+        let (m, y) = long_decay();
         let obs = Observations {
             y: &y,
             weights: None,
@@ -1144,15 +1149,9 @@ mod tests {
 
     #[test]
     fn the_streaming_qr_reaches_the_same_minimum() {
-        // 60,000 rows as above; block-by-block QR against the stored reflectors. The paths
+        // Block-by-block QR against the stored reflectors. The paths
         // differ by rounding only, so the minimum agrees to the tolerance of the stop rules.
-        let x: Vec<f64> = (0..60_000).map(|i| f64::from(i) * 1e-4).collect();
-        let y: Vec<f64> = x
-            .iter()
-            .enumerate()
-            .map(|(i, x)| 80.0 * (-0.35 * x).exp() + 0.04 * ((i % 11) as f64 - 5.0))
-            .collect();
-        let m = Decay { x };
+        let (m, y) = long_decay();
         let obs = Observations {
             y: &y,
             weights: None,
