@@ -5,6 +5,7 @@
 //! [`Dataset`].
 
 mod channels;
+mod contain;
 mod decode;
 mod fast_number;
 mod fast_text;

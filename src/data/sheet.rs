@@ -21,11 +21,26 @@ use crate::error::{Error, Result, did_you_mean};
 use crate::recipe::{CellRange, Format, Recipe};
 
 /// Read the chosen sheet and cells of a workbook.
+///
+/// The workbook reader is third-party code over the file's bytes: a panic inside it (seen on
+/// a malformed cell reference) is an input error naming the file, not a crash.
 pub fn read_sheet(recipe: &Recipe, path: &Path, bytes: &[u8], format: Format) -> Result<Grid> {
-    match format {
-        Format::Ods => read_book::<Ods<Cursor<&[u8]>>>(recipe, path, bytes, ".ods"),
-        _ => read_book::<Xlsx<Cursor<&[u8]>>>(recipe, path, bytes, ".xlsx"),
-    }
+    let kind = if format == Format::Ods {
+        ".ods"
+    } else {
+        ".xlsx"
+    };
+    super::contain::contain(|| match format {
+        Format::Ods => read_book::<Ods<Cursor<&[u8]>>>(recipe, path, bytes, kind),
+        _ => read_book::<Xlsx<Cursor<&[u8]>>>(recipe, path, bytes, kind),
+    })
+    .unwrap_or_else(|why| {
+        Err(Error::input(format!(
+            "the data file cannot be read as an {kind} workbook: its content is malformed (the workbook reader stopped: {why})"
+        ))
+        .in_file(path)
+        .help("open the file in the program that wrote it and save it again, or export the sheet as CSV"))
+    })
 }
 
 fn read_book<'b, R>(recipe: &Recipe, path: &Path, bytes: &'b [u8], kind: &str) -> Result<Grid>

@@ -68,6 +68,30 @@ fn garbage_with_a_workbook_extension_says_it_is_not_a_workbook() {
 }
 
 #[test]
+fn a_workbook_that_makes_the_reader_panic_is_an_input_error() {
+    // Found by the read_data fuzz target: a sheet whose cell reference overflows the workbook
+    // reader's row arithmetic (a panic in debug builds of calamine 0.30.1). The bytes are the
+    // committed fuzz input after its selector byte (fuzz/checks/read_data.rs).
+    let input = std::fs::read(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("fuzz/seeds/read_data/xlsx-row-overflow"),
+    )
+    .expect("committed fuzz input");
+    let r = Recipe::line();
+    let text = r.text().replace("d.csv", "bad.xlsx");
+    let c = Case::new();
+    c.file("r.toml", &text)
+        .bytes("bad.xlsx", input.get(1..).unwrap_or(&[]));
+    let out = refused(&c, &["bad.xlsx"]);
+    assert!(
+        out.stderr.contains("workbook") || out.stderr.contains("sheet"),
+        "{}",
+        out.stderr
+    );
+    assert!(!out.stderr.contains("panicked"), "{}", out.stderr);
+}
+
+#[test]
 fn a_folder_named_like_a_data_file_is_not_read() {
     let r = Recipe::line();
     let c = Case::new();
