@@ -53,39 +53,22 @@ pub(crate) fn dot(a: &[f64], b: &[f64]) -> f64 {
 /// same pass: the values of [`dot`]`(q, e)` and [`norm2`]`(q)` to the last bit (the same four
 /// partial sums in the same order), without reading q back twice.
 pub(crate) fn weighted_column(c: &[f64], s: &[f64], e: &[f64], q: &mut [f64]) -> (f64, f64) {
-    let n = c.len().min(s.len()).min(e.len()).min(q.len());
-    let (c, s, e, q) = (&c[..n], &s[..n], &e[..n], &mut q[..n]);
-    let mut g = [0.0_f64; 4];
-    let mut ss = [0.0_f64; 4];
-    let whole = n - n % 4;
-    for i in (0..whole).step_by(4) {
-        for k in 0..4 {
-            let v = c[i + k] * s[i + k];
-            q[i + k] = v;
-            g[k] += v * e[i + k];
-            ss[k] += v * v;
+    weighted_sums(c, s, e, |i, v| {
+        if let Some(slot) = q.get_mut(i) {
+            *slot = v;
         }
-    }
-    let (mut gt, mut st) = (0.0, 0.0);
-    for i in whole..n {
-        let v = c[i] * s[i];
-        q[i] = v;
-        gt += v * e[i];
-        st += v * v;
-    }
-    let g = (g[0] + g[1]) + (g[2] + g[3]) + gt;
-    let sum = (ss[0] + ss[1]) + (ss[2] + ss[3]) + st;
-    let norm = if sum.is_finite() && sum > 1e-280 {
-        sum.sqrt()
-    } else {
-        norm2(q)
-    };
-    (g, norm)
+    })
 }
 
 /// qᵀe and ‖q‖ for q = c ⊙ s without writing q (the streaming QR weights the columns as it
-/// reads them). Same four partial sums as [`weighted_column`].
+/// reads them); the same bits as [`weighted_column`].
 pub(crate) fn weighted_column_sums(c: &[f64], s: &[f64], e: &[f64]) -> (f64, f64) {
+    weighted_sums(c, s, e, |_, _| {})
+}
+
+/// The pass behind [`weighted_column`] and [`weighted_column_sums`]: each qᵢ goes to `put`.
+#[inline(always)]
+fn weighted_sums(c: &[f64], s: &[f64], e: &[f64], mut put: impl FnMut(usize, f64)) -> (f64, f64) {
     let n = c.len().min(s.len()).min(e.len());
     let (c, s, e) = (&c[..n], &s[..n], &e[..n]);
     let mut g = [0.0_f64; 4];
@@ -94,6 +77,7 @@ pub(crate) fn weighted_column_sums(c: &[f64], s: &[f64], e: &[f64]) -> (f64, f64
     for i in (0..whole).step_by(4) {
         for k in 0..4 {
             let v = c[i + k] * s[i + k];
+            put(i + k, v);
             g[k] += v * e[i + k];
             ss[k] += v * v;
         }
@@ -101,6 +85,7 @@ pub(crate) fn weighted_column_sums(c: &[f64], s: &[f64], e: &[f64]) -> (f64, f64
     let (mut gt, mut st) = (0.0, 0.0);
     for i in whole..n {
         let v = c[i] * s[i];
+        put(i, v);
         gt += v * e[i];
         st += v * v;
     }
@@ -109,7 +94,7 @@ pub(crate) fn weighted_column_sums(c: &[f64], s: &[f64], e: &[f64]) -> (f64, f64
     let norm = if sum.is_finite() && sum > 1e-280 {
         sum.sqrt()
     } else {
-        // Tiny or huge columns: the scaled norm of the weighted column, formed for this.
+        // Tiny or huge columns: the scaled norm of the weighted column (rare; formed again).
         let q: Vec<f64> = c.iter().zip(s).map(|(c, s)| c * s).collect();
         norm2(&q)
     };
@@ -596,19 +581,26 @@ impl ScaledQr {
 mod tests {
     use super::*;
 
+    /// A fixed linear congruential sequence (Knuth's MMIX constants): each call gives a value
+    /// uniform in [0, 1) and the raw state it came from.
+    fn lcg(seed: u64) -> impl FnMut() -> (f64, u64) {
+        let mut state = seed;
+        move || {
+            state = state
+                .wrapping_mul(6_364_136_223_846_793_005)
+                .wrapping_add(1_442_695_040_888_963_407);
+            ((state >> 11) as f64 / (1u64 << 53) as f64, state)
+        }
+    }
+
     #[test]
     fn streaming_qr_gives_householders_r_and_qtb_up_to_row_signs() {
         // Matrices of 1 to 4 columns over 1, 255, 256, 257 and 1,000 rows (block edges),
         // values from a fixed linear congruential sequence (Knuth's MMIX constants), one
         // column zeroed; compared with householder_qr_in_place + apply_qt on the same
         // weighted matrix.
-        let mut state: u64 = 7;
-        let mut next = || {
-            state = state
-                .wrapping_mul(6_364_136_223_846_793_005)
-                .wrapping_add(1_442_695_040_888_963_407);
-            (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5
-        };
+        let mut uniform = lcg(7);
+        let mut next = || uniform().0 - 0.5;
         for p in 1..=4 {
             for n in [p, 255, 256, 257, 1000] {
                 if n < p {
@@ -670,13 +662,10 @@ mod tests {
         // Every length from 0 to 41 (all tail sizes), values spread over many magnitudes by a
         // fixed linear congruential sequence (Knuth's MMIX constants), and a tiny column that
         // takes norm2's scaled branch.
-        let mut state: u64 = 20_261_201;
+        let mut uniform = lcg(20_261_201);
         let mut next = || {
-            state = state
-                .wrapping_mul(6_364_136_223_846_793_005)
-                .wrapping_add(1_442_695_040_888_963_407);
-            let u = (state >> 11) as f64 / (1u64 << 53) as f64;
-            (u - 0.5) * 10f64.powi(((state >> 7) % 9) as i32 - 4)
+            let (u, bits) = uniform();
+            (u - 0.5) * 10f64.powi(((bits >> 7) % 9) as i32 - 4)
         };
         for n in 0..42 {
             for tiny in [false, true] {

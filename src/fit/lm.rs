@@ -873,6 +873,17 @@ fn acceleration<M: Model + ?Sized>(
     2.0 * na.sqrt() <= ACCEL_ALPHA * nv.sqrt()
 }
 
+/// f_vv at row i: (2/h)·((f(θ + h·v)ᵢ − f(θ)ᵢ)/h − (J·v)ᵢ), J·v summed over the columns in
+/// order (column-major `jac` of n rows).
+#[inline(always)]
+fn second_difference(jac: &[f64], n: usize, i: usize, v: &[f64], ft: f64, f: f64) -> f64 {
+    let mut jv = 0.0;
+    for (j, vj) in v.iter().enumerate() {
+        jv += jac[j * n + i] * vj;
+    }
+    (2.0 / ACCEL_H) * ((ft - f) / ACCEL_H - jv)
+}
+
 /// rhs = −W½·f_vv, f_vv ≈ (2/h)·((f(θ + h·v) − f(θ))/h − J·v) with f(θ + h·v) in `w.f_trial`
 /// (see the module docs); false when a value at θ + h·v is not finite.
 fn second_directional(w: &mut Work, n: usize, p: usize) -> bool {
@@ -882,12 +893,7 @@ fn second_directional(w: &mut Work, n: usize, p: usize) -> bool {
     let mut finite = true;
     for i in 0..n {
         finite &= ft[i].abs() < f64::INFINITY;
-        let mut jv = 0.0;
-        for (j, vj) in v.iter().enumerate() {
-            jv += jac[j * n + i] * vj;
-        }
-        let fvv = (2.0 / ACCEL_H) * ((ft[i] - f[i]) / ACCEL_H - jv);
-        rhs[i] = -sw[i] * fvv;
+        rhs[i] = -sw[i] * second_difference(jac, n, i, v, ft[i], f[i]);
     }
     finite
 }
@@ -904,12 +910,7 @@ fn projected_second_directional(w: &mut Work, n: usize, p: usize) -> bool {
     let mut finite = true;
     for i in 0..n {
         finite &= ft[i].abs() < f64::INFINITY;
-        let mut jv = 0.0;
-        for (j, vj) in v.iter().enumerate() {
-            jv += jac[j * n + i] * vj;
-        }
-        let fvv = (2.0 / ACCEL_H) * ((ft[i] - f[i]) / ACCEL_H - jv);
-        let r = -sw[i] * fvv;
+        let r = -sw[i] * second_difference(jac, n, i, v, ft[i], f[i]);
         let swr = sw[i] * r;
         for (j, g) in jtr.iter_mut().enumerate() {
             *g += jac[j * n + i] * swr;
