@@ -217,10 +217,11 @@ impl Func {
     }
 
     /// Plain IEEE evaluation (no domain checks; NaN and ±inf flow through).
-    /// `min`/`max` propagate NaN, unlike `f64::min`, so a bad argument is never hidden.
+    /// `min`/`max` propagate NaN, unlike `f64::min`, so a bad argument is never hidden; `exp`
+    /// is the engine's own ([`super::exp`]), the same bits as the tape's on every machine.
     pub fn apply(self, a: f64, b: f64) -> f64 {
         match self {
-            Func::Exp => a.exp(),
+            Func::Exp => super::exp::exp(a),
             Func::Ln => a.ln(),
             Func::Log10 => a.log10(),
             Func::Log2 => a.log2(),

@@ -14,6 +14,7 @@
 pub mod ast;
 pub mod deriv;
 pub mod error;
+pub mod exp;
 pub mod lexer;
 pub mod parser;
 pub mod print;
