@@ -9,7 +9,7 @@
 //! nonlinear ones — no file I/O, statistics, diagnostics or report writing.
 //!
 //! Run: `cargo bench --bench nist_fits` (optionally `-- NAME` to run problems whose name
-//! contains NAME). Target (SPEC §11): median under 50 µs for lower-difficulty nonlinear fits.
+//! contains NAME; `FITWRIGHT_BENCH_REPS=N` for a fixed count, e.g. under callgrind). Target (SPEC §11): median under 50 µs for lower-difficulty nonlinear fits.
 //! Data: NIST ITL StRD, read in place from `../shared/reference-data/nist-strd/` or
 //! `$FITWRIGHT_STRD_DIR`.
 
@@ -53,6 +53,12 @@ const MAX_REPS: usize = 2000;
 const MIN_REPS: usize = 5;
 const TARGET_US: f64 = 50.0;
 
+/// `FITWRIGHT_BENCH_REPS=N`: exactly N timed repetitions per fit instead of the time budget,
+/// so that instruction counts (callgrind) compare between builds.
+fn fixed_reps() -> Option<usize> {
+    std::env::var("FITWRIGHT_BENCH_REPS").ok()?.parse().ok()
+}
+
 fn us(d: Duration) -> f64 {
     d.as_secs_f64() * 1e6
 }
@@ -72,7 +78,11 @@ fn time<T>(mut fit: impl FnMut() -> T) -> Timing {
     let allocs = ALLOCS.load(Ordering::Relaxed) - before;
     let mut times = Vec::new();
     let t_all = Instant::now();
-    while times.len() < MAX_REPS && (times.len() < MIN_REPS || t_all.elapsed() < BUDGET) {
+    let fixed = fixed_reps();
+    while match fixed {
+        Some(n) => times.len() < n,
+        None => times.len() < MAX_REPS && (times.len() < MIN_REPS || t_all.elapsed() < BUDGET),
+    } {
         let t = Instant::now();
         black_box(fit());
         times.push(t.elapsed());

@@ -56,10 +56,10 @@
 //! A domain error (or non-finite value) of the model at a trial point rejects the step; at the
 //! start it is an error.
 //!
-//! # Large data sets
-//! From [`SPECULATIVE_FROM`] rows on, the model values at a trial point are computed together
-//! with the Jacobian there ([`Model::eval_with_jacobian`]): most trials of such fits are
-//! accepted, and the Jacobian then costs no second pass over the rows. The values are the
+//! # Passes over the rows
+//! The model values at a trial point are computed together with the Jacobian there
+//! ([`Model::eval_with_jacobian`]; from [`SPECULATIVE_FROM`] rows, at present every size):
+//! most trials are accepted, and the Jacobian then costs no second pass over the rows. The values are the
 //! same as those of [`Model::eval`], so the iterations are those of the one-pass-each order;
 //! a Jacobian computed for a rejected trial is discarded (and not counted in
 //! [`LmOutcome::jacobian_evals`], which counts the Jacobians the iterations used). The
@@ -129,11 +129,19 @@ pub trait Model {
 pub const STREAMING_QR_FROM: usize = 50_000;
 
 /// Rows from which a trial point's values come with its Jacobian (see "Large data sets" in
-/// the module docs). Small problems reject more trials, and each wasted Jacobian costs more
-/// than the saved pass: with it on from the first row, callgrind counted 12–24 % more
-/// instructions per fit on NIST Chwirut1, Gauss1 and Lanczos3 (4 % fewer on Misra1a). The
-/// threshold itself is not tuned (any size where the rows dominate would do).
-pub const SPECULATIVE_FROM: usize = 50_000;
+/// the module docs): from the first. Most trials are accepted, and then the Jacobian costs no
+/// second pass; a rejected trial wastes one. With the engine's vectorized `exp` and the AVX2
+/// tape, callgrind counts 9–17 % fewer instructions per fit this way on the NIST problems
+/// measured (Chwirut1 −9 %, Gauss1 −10 %, Lanczos3 −11 %, Misra1a −16 %, BoxBOD −17 %;
+/// 2026-12-02). Before those changes the balance was the other way (12–24 % more on
+/// Chwirut1, Gauss1, Lanczos3), so it was used from 50,000 rows only. The option stays for
+/// callers that prefer one pass each ([`LmOptions::with_speculative_from`]).
+pub const SPECULATIVE_FROM: usize = 0;
+
+/// Rows from which the acceleration's right-hand side is projected through R
+/// (R⁻ᵀ·J_wᵀ·rhs, one pass, see [`acceleration`]) rather than by the stored reflectors. Not
+/// tuned; small problems, the NIST ones included, keep the reflectors.
+pub const PROJECTED_RHS_FROM: usize = 50_000;
 
 /// Box constraint of one parameter (use ±∞ for none).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -676,7 +684,7 @@ pub fn fit<M: Model + ?Sized>(
                     &mut w,
                     lambda,
                     &mut nfev,
-                    speculative || streaming,
+                    n >= PROJECTED_RHS_FROM || streaming,
                     streaming,
                 );
             }
