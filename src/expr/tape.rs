@@ -114,6 +114,9 @@ pub struct MultiTape {
     program: Vec<Instr>,
     registers: usize,
     outputs: Vec<Src>,
+    /// Per register: the output whose slice holds it (the first output computed in that
+    /// register; output registers are never reused), so results are written in place.
+    home: Vec<Option<u32>>,
 }
 
 /// Working memory of an evaluation: the once-per-call values and the row registers. A
@@ -327,7 +330,15 @@ impl MultiTape {
             }
         }
         let scalar_order = (0..n as u32).filter(|&i| !vector[i as usize]).collect();
-        let outputs = roots.iter().map(|&r| src(r, &reg_of)).collect();
+        let outputs: Vec<Src> = roots.iter().map(|&r| src(r, &reg_of)).collect();
+        let mut home = vec![None; registers as usize];
+        for (k, o) in outputs.iter().enumerate() {
+            if let Src::Reg(r) = *o
+                && home[r as usize].is_none()
+            {
+                home[r as usize] = u32::try_from(k).ok();
+            }
+        }
         MultiTape {
             symbols,
             exprs,
@@ -336,6 +347,7 @@ impl MultiTape {
             program,
             registers: registers as usize,
             outputs,
+            home,
         }
     }
 
@@ -510,8 +522,8 @@ impl MultiTape {
         if regs.len() < self.registers {
             regs.resize(self.registers, Vec::new());
         }
-        for r in regs.iter_mut() {
-            if r.len() < width {
+        for (r, home) in regs.iter_mut().zip(&self.home) {
+            if home.is_none() && r.len() < width {
                 r.resize(width, 0.0);
             }
         }
@@ -521,23 +533,44 @@ impl MultiTape {
             let len = hi - lo;
             let mut bad = scalars_bad;
             for ins in &self.program {
-                let mut out = std::mem::take(&mut regs[ins.out as usize]);
-                {
-                    let a = operand(ins.a, regs, columns, scalars, lo, hi);
-                    let b = operand(ins.b, regs, columns, scalars, lo, hi);
-                    exec(ins.op, &mut out[..len], a, b);
-                }
-                if checked && !bad && !all_finite(&out[..len]) {
-                    bad = true;
-                }
-                regs[ins.out as usize] = out;
+                // An output's register is the output slice itself: no copy at the end.
+                let finite = match self.home[ins.out as usize] {
+                    None => {
+                        let mut out = std::mem::take(&mut regs[ins.out as usize]);
+                        let (a, b) = (
+                            operand(ins.a, regs, outs, &self.home, columns, scalars, lo, hi),
+                            operand(ins.b, regs, outs, &self.home, columns, scalars, lo, hi),
+                        );
+                        exec(ins.op, &mut out[..len], a, b);
+                        let finite = !checked || bad || all_finite(&out[..len]);
+                        regs[ins.out as usize] = out;
+                        finite
+                    }
+                    Some(k) => {
+                        let k = k as usize;
+                        let dest = std::mem::take(&mut outs[k]);
+                        let (a, b) = (
+                            operand(ins.a, regs, outs, &self.home, columns, scalars, lo, hi),
+                            operand(ins.b, regs, outs, &self.home, columns, scalars, lo, hi),
+                        );
+                        exec(ins.op, &mut dest[lo..hi], a, b);
+                        let finite = !checked || bad || all_finite(&dest[lo..hi]);
+                        outs[k] = dest;
+                        finite
+                    }
+                };
+                bad |= !finite;
             }
             for (k, src) in self.outputs.iter().enumerate() {
-                let dest = &mut outs[k][lo..hi];
-                match operand(*src, regs, columns, scalars, lo, hi) {
-                    V::S(s) => dest.copy_from_slice(s),
-                    V::C(c) => dest.fill(c),
+                if matches!(*src, Src::Reg(r) if self.home[r as usize] == Some(k as u32)) {
+                    continue;
                 }
+                let dest = std::mem::take(&mut outs[k]);
+                match operand(*src, regs, outs, &self.home, columns, scalars, lo, hi) {
+                    V::S(s) => dest[lo..hi].copy_from_slice(s),
+                    V::C(c) => dest[lo..hi].fill(c),
+                }
+                outs[k] = dest;
             }
             // Outputs copied from registers were checked as instructions; only those taken
             // straight from a data column or a once-per-call value are checked here.
@@ -651,16 +684,25 @@ enum V<'a> {
     C(f64),
 }
 
+/// The value of `src` for rows `lo..hi`: a register lives in `regs`, or in the output slice
+/// it is the home of (`home`, see [`MultiTape::home`]).
+#[allow(clippy::too_many_arguments)]
+#[inline(always)]
 fn operand<'a>(
     src: Src,
     regs: &'a [Vec<f64>],
+    outs: &'a [&mut [f64]],
+    home: &[Option<u32>],
     columns: &'a [&[f64]],
     scalars: &[f64],
     lo: usize,
     hi: usize,
 ) -> V<'a> {
     match src {
-        Src::Reg(r) => V::S(&regs[r as usize][..hi - lo]),
+        Src::Reg(r) => match home[r as usize] {
+            None => V::S(&regs[r as usize][..hi - lo]),
+            Some(k) => V::S(&outs[k as usize][lo..hi]),
+        },
         Src::Col(c) => V::S(&columns[c as usize][lo..hi]),
         Src::Scalar(NONE) => V::C(0.0),
         Src::Scalar(i) => V::C(scalars[i as usize]),
@@ -964,6 +1006,30 @@ fn literal(e: &Expr) -> Option<f64> {
 mod tests {
     use super::*;
     use crate::expr::{parse_expression, parse_filter};
+
+    /// Outputs are computed in place; an output repeated, a bare column and a constant are
+    /// still filled, over several chunks.
+    #[test]
+    fn outputs_sharing_a_value_columns_and_constants_are_all_filled() {
+        let exprs: Vec<Expr> = ["a*exp(x)", "a*exp(x)", "x", "2*a", "exp(x) - a*exp(x)"]
+            .iter()
+            .map(|s| parse_expression(s).expect("test expression parses"))
+            .collect();
+        let tape = MultiTape::compile(&exprs, &Symbols::new(&["x"], &["a"])).expect("compiles");
+        let rows = 2 * CHUNK + 5;
+        let x: Vec<f64> = (0..rows).map(|i| i as f64 * 1e-3).collect();
+        let mut outs = vec![vec![f64::NAN; rows]; exprs.len()];
+        let mut views: Vec<&mut [f64]> = outs.iter_mut().map(|o| o.as_mut_slice()).collect();
+        tape.eval(&[&x], &[1.5], &mut views).expect("finite");
+        for (i, &xi) in x.iter().enumerate() {
+            let e = super::super::exp::exp(xi);
+            assert_eq!(outs[0][i].to_bits(), (1.5 * e).to_bits());
+            assert_eq!(outs[1][i].to_bits(), (1.5 * e).to_bits());
+            assert_eq!(outs[2][i].to_bits(), xi.to_bits());
+            assert_eq!(outs[3][i], 3.0);
+            assert_eq!(outs[4][i].to_bits(), (e - 1.5 * e).to_bits());
+        }
+    }
 
     #[test]
     fn finiteness_check_finds_every_non_finite_position() {
