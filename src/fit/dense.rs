@@ -49,56 +49,106 @@ pub(crate) fn dot(a: &[f64], b: &[f64]) -> f64 {
     (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
 }
 
-/// q = c ⊙ s (a Jacobian column weighted by √w) written into `q`, with qᵀe and ‖q‖ in the
-/// same pass: the values of [`dot`]`(q, e)` and [`norm2`]`(q)` to the last bit (the same four
-/// partial sums in the same order), without reading q back twice.
-pub(crate) fn weighted_column(c: &[f64], s: &[f64], e: &[f64], q: &mut [f64]) -> (f64, f64) {
-    weighted_sums(c, s, e, |i, v| {
-        if let Some(slot) = q.get_mut(i) {
-            *slot = v;
-        }
-    })
+/// q = c ⊙ s (a Jacobian column weighted by √w; `s` None for unit weights, where q = c)
+/// written into `q`, with qᵀe and ‖q‖ in the same pass: the values of [`dot`]`(q, e)` and
+/// [`norm2`]`(q)` to the last bit (the same four partial sums in the same order), without
+/// reading q back twice.
+pub(crate) fn weighted_column(
+    c: &[f64],
+    s: Option<&[f64]>,
+    e: &[f64],
+    q: &mut [f64],
+) -> (f64, f64) {
+    let n = c.len().min(e.len()).min(q.len());
+    let n = s.map_or(n, |s| n.min(s.len()));
+    let (c, q) = (&c[..n], &mut q[..n]);
+    let (g, sum) = match s {
+        Some(s) => weighted_sums::<false>(c, s, e, Some(q)),
+        None => weighted_sums::<true>(c, c, e, Some(q)),
+    };
+    (g, column_norm(sum, c, s))
 }
 
 /// qᵀe and ‖q‖ for q = c ⊙ s without writing q (the streaming QR weights the columns as it
 /// reads them); the same bits as [`weighted_column`].
-pub(crate) fn weighted_column_sums(c: &[f64], s: &[f64], e: &[f64]) -> (f64, f64) {
-    weighted_sums(c, s, e, |_, _| {})
+pub(crate) fn weighted_column_sums(c: &[f64], s: Option<&[f64]>, e: &[f64]) -> (f64, f64) {
+    let (g, sum) = match s {
+        Some(s) => weighted_sums::<false>(c, s, e, None),
+        None => weighted_sums::<true>(c, c, e, None),
+    };
+    (g, column_norm(sum, c, s))
 }
 
-/// The pass behind [`weighted_column`] and [`weighted_column_sums`]: each qᵢ goes to `put`.
+/// ‖q‖ from its plain sum of squares `sum`, as [`norm2`] takes it: when that is tiny or huge,
+/// the scaled norm of the weighted column, formed again (rare).
+fn column_norm(sum: f64, c: &[f64], s: Option<&[f64]>) -> f64 {
+    if sum.is_finite() && sum > 1e-280 {
+        return sum.sqrt();
+    }
+    let q: Vec<f64> = match s {
+        Some(s) => c.iter().zip(s).map(|(c, s)| c * s).collect(),
+        None => c.to_vec(),
+    };
+    norm2(&q)
+}
+
+/// The pass behind [`weighted_column`] and [`weighted_column_sums`]: qᵢ = cᵢ·sᵢ over the
+/// common length (qᵢ = cᵢ when `UNIT`, `s` then unread: 1·x = x exactly), written to `q`
+/// when given. Returns qᵀe and Σ qᵢ², each with the four partial sums of [`dot`].
 #[inline(always)]
-fn weighted_sums(c: &[f64], s: &[f64], e: &[f64], mut put: impl FnMut(usize, f64)) -> (f64, f64) {
+fn weighted_sums<const UNIT: bool>(
+    c: &[f64],
+    s: &[f64],
+    e: &[f64],
+    q: Option<&mut [f64]>,
+) -> (f64, f64) {
     let n = c.len().min(s.len()).min(e.len());
     let (c, s, e) = (&c[..n], &s[..n], &e[..n]);
+    let weigh = |c: f64, s: f64| if UNIT { c } else { c * s };
     let mut g = [0.0_f64; 4];
     let mut ss = [0.0_f64; 4];
-    let whole = n - n % 4;
-    for i in (0..whole).step_by(4) {
+    // The q blocks, or none at all; zipped in so that the loop has no bounds checks.
+    let (mut out, out_rest): (Option<_>, &mut [f64]) = match q {
+        Some(q) => {
+            let (body, rest) = q.split_at_mut(n - n % 4);
+            (Some(body.chunks_exact_mut(4)), rest)
+        }
+        None => (None, &mut []),
+    };
+    let blocks = std::iter::from_fn(|| match out.as_mut() {
+        Some(it) => it.next().map(Some),
+        None => Some(None),
+    });
+    let (mut cc, mut cs, mut ce) = (c.chunks_exact(4), s.chunks_exact(4), e.chunks_exact(4));
+    for (((x, w), y), d) in (&mut cc).zip(&mut cs).zip(&mut ce).zip(blocks) {
+        let v: [f64; 4] = std::array::from_fn(|k| weigh(x[k], w[k]));
         for k in 0..4 {
-            let v = c[i + k] * s[i + k];
-            put(i + k, v);
-            g[k] += v * e[i + k];
-            ss[k] += v * v;
+            g[k] += v[k] * y[k];
+        }
+        for k in 0..4 {
+            ss[k] += v[k] * v[k];
+        }
+        if let Some(d) = d {
+            d.copy_from_slice(&v);
         }
     }
     let (mut gt, mut st) = (0.0, 0.0);
-    for i in whole..n {
-        let v = c[i] * s[i];
-        put(i, v);
-        gt += v * e[i];
+    let rest = cc
+        .remainder()
+        .iter()
+        .zip(cs.remainder())
+        .zip(ce.remainder());
+    for (k, ((x, w), y)) in rest.enumerate() {
+        let v = weigh(*x, *w);
+        if let Some(d) = out_rest.get_mut(k) {
+            *d = v;
+        }
+        gt += v * y;
         st += v * v;
     }
     let g = (g[0] + g[1]) + (g[2] + g[3]) + gt;
     let sum = (ss[0] + ss[1]) + (ss[2] + ss[3]) + st;
-    let norm = if sum.is_finite() && sum > 1e-280 {
-        sum.sqrt()
-    } else {
-        // Tiny or huge columns: the scaled norm of the weighted column (rare; formed again).
-        let q: Vec<f64> = c.iter().zip(s).map(|(c, s)| c * s).collect();
-        norm2(&q)
-    };
-    (g, norm)
+    (g, sum)
 }
 
 /// Rows per block of [`streaming_qr`]: the (p + block) × (p + 1) buffer stays in the L1/L2
@@ -674,11 +724,26 @@ mod tests {
                 let s: Vec<f64> = (0..n).map(|_| next().abs() + 0.1).collect();
                 let e: Vec<f64> = (0..n).map(|_| next()).collect();
                 let mut q = vec![0.0; n];
-                let (g, norm) = weighted_column(&c, &s, &e, &mut q);
+                let (g, norm) = weighted_column(&c, Some(&s), &e, &mut q);
                 let q_ref: Vec<f64> = c.iter().zip(&s).map(|(c, s)| c * s).collect();
                 assert_eq!(q, q_ref);
                 assert_eq!(g.to_bits(), dot(&q_ref, &e).to_bits(), "n = {n}");
                 assert_eq!(norm.to_bits(), norm2(&q_ref).to_bits(), "n = {n}");
+                let sums = weighted_column_sums(&c, Some(&s), &e);
+                assert_eq!(
+                    (sums.0.to_bits(), sums.1.to_bits()),
+                    (g.to_bits(), norm.to_bits())
+                );
+                // Unit weights: q is the column itself.
+                let (g, norm) = weighted_column(&c, None, &e, &mut q);
+                assert_eq!(q, c);
+                assert_eq!(g.to_bits(), dot(&c, &e).to_bits(), "n = {n}");
+                assert_eq!(norm.to_bits(), norm2(&c).to_bits(), "n = {n}");
+                let sums = weighted_column_sums(&c, None, &e);
+                assert_eq!(
+                    (sums.0.to_bits(), sums.1.to_bits()),
+                    (g.to_bits(), norm.to_bits())
+                );
             }
         }
     }

@@ -460,6 +460,9 @@ const ZERO_RESIDUAL: f64 = 1e-30;
 /// Buffers of one fit, allocated once.
 struct Work {
     sqrt_w: Vec<f64>,
+    /// Every √wᵢ is 1 (no weights, or all wᵢ = 1): the passes over the rows then skip the
+    /// multiplications by √w, which would not change a bit (1·x = x).
+    unit: bool,
     f: Vec<f64>,
     f_trial: Vec<f64>,
     e: Vec<f64>,
@@ -509,6 +512,7 @@ pub fn fit<M: Model + ?Sized>(
             Some(wt) => wt.iter().map(|v| v.sqrt()).collect(),
             None => vec![1.0; n],
         },
+        unit: obs.weights.is_none_or(|wt| wt.iter().all(|v| *v == 1.0)),
         f: vec![0.0; n],
         f_trial: vec![0.0; n],
         e: vec![0.0; n],
@@ -589,13 +593,14 @@ pub fn fit<M: Model + ?Sized>(
         // Weighted Jacobian, scaling and projected gradient.
         let enorm = dense::norm2(&w.e);
         let mut gnorm = 0.0_f64;
+        let sqrt_w = (!w.unit).then_some(&w.sqrt_w[..]);
         for j in 0..p {
             let col = &w.jac.as_slice()[j * n..(j + 1) * n];
             let (g, c) = if streaming {
-                dense::weighted_column_sums(col, &w.sqrt_w, &w.e)
+                dense::weighted_column_sums(col, sqrt_w, &w.e)
             } else {
                 let qcol = &mut w.qr.as_mut_slice()[j * n..(j + 1) * n];
-                dense::weighted_column(col, &w.sqrt_w, &w.e, qcol)
+                dense::weighted_column(col, sqrt_w, &w.e, qcol)
             };
             w.col_norm[j] = c;
             w.diag[j] = w.diag[j].max(c);
