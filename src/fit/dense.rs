@@ -8,11 +8,72 @@
 
 use nalgebra::DMatrix;
 
+/// Runs `f` compiled for AVX2 when the processor has it, and as compiled for the baseline
+/// target otherwise, behind a call the optimizer does not inline (it keeps each kernel's
+/// lane sums apart from the code that combines them, which it otherwise vectorizes badly).
+///
+/// The two builds give the same bits: Rust never contracts a·b + c into a fused multiply-add
+/// (and FMA is not enabled), and never reorders a floating-point sum, so wider registers only
+/// change how many of the independent lane operations run at once. Every kernel that sums
+/// writes its sums out in lanes (e.g. the four partial sums of [`dot`]), combined afterwards
+/// in one fixed order. See DEVELOPERS.md, "Vector kernels".
+///
+/// `len` is the length of the vectors `f` works on: below [`VECTOR_MIN_LEN`] it runs inline,
+/// as compiled for the baseline (the call and the longer loop set-up would cost more than the
+/// wider registers save).
+#[inline(always)]
+pub(crate) fn vectorized<R>(len: usize, f: impl FnOnce() -> R) -> R {
+    if len < VECTOR_MIN_LEN {
+        return f();
+    }
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the processor supports AVX2 (checked on the line above), the one
+        // requirement for calling a function compiled with that feature.
+        return unsafe { run_avx2(f) };
+    }
+    run_baseline(f)
+}
+
+/// Shortest vector for which [`vectorized`] calls its kernel (not tuned: on NIST DanWood,
+/// 6 rows, and Misra1a, 14 rows, callgrind and the clock showed the call slower than inline).
+const VECTOR_MIN_LEN: usize = 32;
+
+/// Lane sums as computed, behind an optimization barrier: without it the optimizer
+/// vectorizes the combination (s₀ + s₁) + (s₂ + s₃) and lays out the loop for that, two lanes
+/// wide with shuffles, instead of the loop's four lanes. No effect on any value.
+#[inline(always)]
+fn lanes<T>(sums: T) -> T {
+    std::hint::black_box(sums)
+}
+
+#[inline(never)]
+fn run_baseline<R>(f: impl FnOnce() -> R) -> R {
+    f()
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+#[inline(never)]
+fn run_avx2<R>(f: impl FnOnce() -> R) -> R {
+    f()
+}
+
 /// Euclidean norm of `x`. One pass of plain sums of squares; when that overflows or falls
 /// into the range where squares underflow, a second pass scales by the largest entry (the
 /// idea of LAPACK's `dnrm2`, from memory).
 pub(crate) fn norm2(x: &[f64]) -> f64 {
-    let sum = dot(x, x);
+    vectorized(
+        x.len(),
+        #[inline(always)]
+        || norm2_kernel(x),
+    )
+}
+
+/// The body of [`norm2`], for use inside other vector kernels.
+#[inline(always)]
+fn norm2_kernel(x: &[f64]) -> f64 {
+    let sum = dot_kernel(x, x);
     if sum.is_finite() && sum > 1e-280 {
         return sum.sqrt();
     }
@@ -26,79 +87,170 @@ pub(crate) fn norm2(x: &[f64]) -> f64 {
 }
 
 /// Σ aᵢ·bᵢ over the common length, with four partial sums (lets the compiler keep several
-/// multiply-adds in flight; the summation order differs from a plain loop only by rounding).
-#[inline]
+/// multiply-adds in flight; the summation order differs from a plain loop only by rounding):
+/// lane k sums the products of rows 4m + k of the whole blocks of four, the n mod 4 rows left
+/// over are summed in order, and the result is (s₀ + s₁) + (s₂ + s₃) + tail.
+#[cfg(test)]
 pub(crate) fn dot(a: &[f64], b: &[f64]) -> f64 {
+    vectorized(
+        a.len(),
+        #[inline(always)]
+        || dot_kernel(a, b),
+    )
+}
+
+/// The body of [`dot`], for use inside other vector kernels.
+#[inline(always)]
+fn dot_kernel(a: &[f64], b: &[f64]) -> f64 {
     let n = a.len().min(b.len());
+    let whole = n - n % 4;
     let (a, b) = (&a[..n], &b[..n]);
-    let mut acc = [0.0_f64; 4];
-    let mut ca = a.chunks_exact(4);
-    let mut cb = b.chunks_exact(4);
-    for (x, y) in (&mut ca).zip(&mut cb) {
-        acc[0] += x[0] * y[0];
-        acc[1] += x[1] * y[1];
-        acc[2] += x[2] * y[2];
-        acc[3] += x[3] * y[3];
-    }
-    let tail: f64 = ca
-        .remainder()
-        .iter()
-        .zip(cb.remainder())
-        .map(|(x, y)| x * y)
-        .sum();
+    let acc = lanes(dot_blocks(&a[..whole], &b[..whole]));
+    let tail: f64 = a[whole..].iter().zip(&b[whole..]).map(|(x, y)| x * y).sum();
     (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
 }
 
-/// q = c ⊙ s (a Jacobian column weighted by √w) written into `q`, with qᵀe and ‖q‖ in the
-/// same pass: the values of [`dot`]`(q, e)` and [`norm2`]`(q)` to the last bit (the same four
-/// partial sums in the same order), without reading q back twice.
-pub(crate) fn weighted_column(c: &[f64], s: &[f64], e: &[f64], q: &mut [f64]) -> (f64, f64) {
-    weighted_sums(c, s, e, |i, v| {
-        if let Some(slot) = q.get_mut(i) {
-            *slot = v;
+/// The four lane sums of [`dot`] over the whole blocks of four.
+#[inline(always)]
+fn dot_blocks(a: &[f64], b: &[f64]) -> [f64; 4] {
+    let mut acc = [0.0_f64; 4];
+    for (x, y) in a.chunks_exact(4).zip(b.chunks_exact(4)) {
+        for k in 0..4 {
+            acc[k] += x[k] * y[k];
         }
-    })
+    }
+    acc
+}
+
+/// q = c ⊙ s (a Jacobian column weighted by √w; `s` None for unit weights, where q = c)
+/// written into `q`, with qᵀe and ‖q‖ in the same pass: the values of [`dot`]`(q, e)` and
+/// [`norm2`]`(q)` to the last bit (the same four partial sums in the same order), without
+/// reading q back twice.
+pub(crate) fn weighted_column(
+    c: &[f64],
+    s: Option<&[f64]>,
+    e: &[f64],
+    q: &mut [f64],
+) -> (f64, f64) {
+    let n = c.len().min(e.len()).min(q.len());
+    let n = s.map_or(n, |s| n.min(s.len()));
+    let (c, q) = (&c[..n], &mut q[..n]);
+    let (g, sum) = match s {
+        Some(s) => weighted_sums::<false>(c, s, e, Some(q)),
+        None => weighted_sums::<true>(c, c, e, Some(q)),
+    };
+    (g, column_norm(sum, c, s))
 }
 
 /// qᵀe and ‖q‖ for q = c ⊙ s without writing q (the streaming QR weights the columns as it
 /// reads them); the same bits as [`weighted_column`].
-pub(crate) fn weighted_column_sums(c: &[f64], s: &[f64], e: &[f64]) -> (f64, f64) {
-    weighted_sums(c, s, e, |_, _| {})
+pub(crate) fn weighted_column_sums(c: &[f64], s: Option<&[f64]>, e: &[f64]) -> (f64, f64) {
+    let (g, sum) = match s {
+        Some(s) => weighted_sums::<false>(c, s, e, None),
+        None => weighted_sums::<true>(c, c, e, None),
+    };
+    (g, column_norm(sum, c, s))
 }
 
-/// The pass behind [`weighted_column`] and [`weighted_column_sums`]: each qᵢ goes to `put`.
-#[inline(always)]
-fn weighted_sums(c: &[f64], s: &[f64], e: &[f64], mut put: impl FnMut(usize, f64)) -> (f64, f64) {
-    let n = c.len().min(s.len()).min(e.len());
-    let (c, s, e) = (&c[..n], &s[..n], &e[..n]);
-    let mut g = [0.0_f64; 4];
-    let mut ss = [0.0_f64; 4];
-    let whole = n - n % 4;
-    for i in (0..whole).step_by(4) {
-        for k in 0..4 {
-            let v = c[i + k] * s[i + k];
-            put(i + k, v);
-            g[k] += v * e[i + k];
-            ss[k] += v * v;
-        }
+/// ‖q‖ from its plain sum of squares `sum`, as [`norm2`] takes it: when that is tiny or huge,
+/// the scaled norm of the weighted column, formed again (rare).
+fn column_norm(sum: f64, c: &[f64], s: Option<&[f64]>) -> f64 {
+    if sum.is_finite() && sum > 1e-280 {
+        return sum.sqrt();
     }
+    let q: Vec<f64> = match s {
+        Some(s) => c.iter().zip(s).map(|(c, s)| c * s).collect(),
+        None => c.to_vec(),
+    };
+    norm2(&q)
+}
+
+/// The pass behind [`weighted_column`] and [`weighted_column_sums`]: qᵢ = cᵢ·sᵢ over the
+/// common length (qᵢ = cᵢ when `UNIT`, `s` then unread: 1·x = x exactly), written to `q`
+/// when given. Returns qᵀe and Σ qᵢ², each with the four partial sums of [`dot`].
+#[inline(always)]
+fn weighted_sums<const UNIT: bool>(
+    c: &[f64],
+    s: &[f64],
+    e: &[f64],
+    q: Option<&mut [f64]>,
+) -> (f64, f64) {
+    let n = c.len().min(s.len()).min(e.len());
+    let whole = n - n % 4;
+    let (c, s, e) = (&c[..n], &s[..n], &e[..n]);
+    let weigh = |c: f64, s: f64| if UNIT { c } else { c * s };
+    let (q_blocks, mut q_rest) = match q {
+        Some(q) => {
+            let (body, rest) = q[..n].split_at_mut(whole);
+            (Some(body), Some(rest))
+        }
+        None => (None, None),
+    };
+    let (g, ss) = vectorized(
+        n,
+        #[inline(always)]
+        || weighted_blocks::<UNIT>(&c[..whole], &s[..whole], &e[..whole], q_blocks),
+    );
     let (mut gt, mut st) = (0.0, 0.0);
     for i in whole..n {
-        let v = c[i] * s[i];
-        put(i, v);
+        let v = weigh(c[i], s[i]);
+        if let Some(rest) = q_rest.as_deref_mut() {
+            rest[i - whole] = v;
+        }
         gt += v * e[i];
         st += v * v;
     }
     let g = (g[0] + g[1]) + (g[2] + g[3]) + gt;
     let sum = (ss[0] + ss[1]) + (ss[2] + ss[3]) + st;
-    let norm = if sum.is_finite() && sum > 1e-280 {
-        sum.sqrt()
-    } else {
-        // Tiny or huge columns: the scaled norm of the weighted column (rare; formed again).
-        let q: Vec<f64> = c.iter().zip(s).map(|(c, s)| c * s).collect();
-        norm2(&q)
-    };
-    (g, norm)
+    (g, sum)
+}
+
+/// The lane sums of [`weighted_sums`] over whole blocks of four rows.
+#[inline(always)]
+fn weighted_blocks<const UNIT: bool>(
+    c: &[f64],
+    s: &[f64],
+    e: &[f64],
+    q: Option<&mut [f64]>,
+) -> ([f64; 4], [f64; 4]) {
+    let mut g = [0.0_f64; 4];
+    let mut ss = [0.0_f64; 4];
+    let blocks = c
+        .chunks_exact(4)
+        .zip(s.chunks_exact(4))
+        .zip(e.chunks_exact(4));
+    match q {
+        Some(q) => {
+            for (((x, w), y), d) in blocks.zip(q.chunks_exact_mut(4)) {
+                d.copy_from_slice(&weighted_block::<UNIT>(x, w, y, &mut g, &mut ss));
+            }
+        }
+        None => {
+            for ((x, w), y) in blocks {
+                weighted_block::<UNIT>(x, w, y, &mut g, &mut ss);
+            }
+        }
+    }
+    (g, ss)
+}
+
+/// One block of four rows of [`weighted_blocks`]: returns the q values.
+#[inline(always)]
+fn weighted_block<const UNIT: bool>(
+    x: &[f64],
+    w: &[f64],
+    y: &[f64],
+    g: &mut [f64; 4],
+    ss: &mut [f64; 4],
+) -> [f64; 4] {
+    let v: [f64; 4] = std::array::from_fn(|k| if UNIT { x[k] } else { x[k] * w[k] });
+    for k in 0..4 {
+        g[k] += v[k] * y[k];
+    }
+    for k in 0..4 {
+        ss[k] += v[k] * v[k];
+    }
+    v
 }
 
 /// Rows per block of [`streaming_qr`]: the (p + block) × (p + 1) buffer stays in the L1/L2
@@ -114,6 +266,23 @@ const QR_BLOCK: usize = 256;
 /// gives up to the signs of R's rows (each row's sign carried by z's entry). R goes to the
 /// upper triangle of the p × p `r` (zeros below), z to `z[..p]`.
 pub(crate) fn streaming_qr(
+    jac: &[f64],
+    s: &[f64],
+    zero: &[bool],
+    b: &[f64],
+    work: &mut Vec<f64>,
+    r: &mut DMatrix<f64>,
+    z: &mut [f64],
+) {
+    vectorized(
+        b.len(),
+        #[inline(always)]
+        || streaming_qr_kernel(jac, s, zero, b, work, r, z),
+    );
+}
+
+#[inline(always)]
+fn streaming_qr_kernel(
     jac: &[f64],
     s: &[f64],
     zero: &[bool],
@@ -147,7 +316,7 @@ pub(crate) fn streaming_qr(
             let (left, right) = work.split_at_mut((j + 1) * ld);
             let x = &mut left[j * ld + j..j * ld + m];
             let alpha = x[0];
-            let tail_norm = norm2(&x[1..]);
+            let tail_norm = norm2_kernel(&x[1..]);
             if tail_norm == 0.0 {
                 continue;
             }
@@ -160,10 +329,7 @@ pub(crate) fn streaming_qr(
             x[0] = beta;
             let v = &x[1..];
             for k in 0..(p - j) {
-                let ck = &mut right[k * ld + j..k * ld + m];
-                let t = tau * (ck[0] + dot(v, &ck[1..]));
-                ck[0] -= t;
-                sub_scaled(&mut ck[1..], t, v);
+                reflect(tau, v, &mut right[k * ld + j..k * ld + m]);
             }
             // The rows below the diagonal start the next block at zero.
             x[1..].fill(0.0);
@@ -179,10 +345,21 @@ pub(crate) fn streaming_qr(
 }
 
 /// y ← y − α·x over the common length.
-#[inline]
+#[inline(always)]
 fn sub_scaled(y: &mut [f64], alpha: f64, x: &[f64]) {
     for (yi, xi) in y.iter_mut().zip(x) {
         *yi -= alpha * xi;
+    }
+}
+
+/// c ← H·c for the Householder reflection H = I − τ·u·uᵀ with u = (1, v): with
+/// t = τ·(c₀ + vᵀc₁‥), c₀ ← c₀ − t and c₁‥ ← c₁‥ − t·v.
+#[inline(always)]
+fn reflect(tau: f64, v: &[f64], c: &mut [f64]) {
+    if let Some((c0, rest)) = c.split_first_mut() {
+        let t = tau * (*c0 + dot_kernel(v, rest));
+        *c0 -= t;
+        sub_scaled(rest, t, v);
     }
 }
 
@@ -195,13 +372,22 @@ fn sub_scaled(y: &mut [f64], alpha: f64, x: &[f64]) {
 /// cancellation (Golub & Van Loan §5.1.2, from memory). A column already zero below the
 /// diagonal gets τ = 0 (H = I).
 pub(crate) fn householder_qr_in_place(a: &mut DMatrix<f64>, tau: &mut [f64]) {
+    vectorized(
+        a.nrows(),
+        #[inline(always)]
+        || householder_qr_kernel(a, tau),
+    );
+}
+
+#[inline(always)]
+fn householder_qr_kernel(a: &mut DMatrix<f64>, tau: &mut [f64]) {
     let (n, p) = a.shape();
     debug_assert!(n >= p && tau.len() >= p);
     for j in 0..p {
         let alpha = a[(j, j)];
         let tail_norm = {
             let col = a.column(j);
-            norm2(&col.as_slice()[j + 1..])
+            norm2_kernel(&col.as_slice()[j + 1..])
         };
         if tail_norm == 0.0 {
             tau[j] = 0.0;
@@ -222,9 +408,7 @@ pub(crate) fn householder_qr_in_place(a: &mut DMatrix<f64>, tau: &mut [f64]) {
         // Apply Hⱼ to the remaining columns.
         for k in j + 1..p {
             let (vj, ck) = column_pair(a, j, k);
-            let s = t * (ck[j] + dot(&vj[j + 1..n], &ck[j + 1..n]));
-            ck[j] -= s;
-            sub_scaled(&mut ck[j + 1..n], s, &vj[j + 1..n]);
+            reflect(t, &vj[j + 1..n], &mut ck[j..n]);
         }
     }
 }
@@ -241,15 +425,21 @@ fn column_pair(a: &mut DMatrix<f64>, j: usize, k: usize) -> (&[f64], &mut [f64])
 /// b ← Qᵀ·b for a factorization from [`householder_qr_in_place`].
 pub(crate) fn apply_qt(qr: &DMatrix<f64>, tau: &[f64], b: &mut [f64]) {
     let (n, p) = qr.shape();
-    for j in 0..p {
-        if tau[j] == 0.0 {
-            continue;
-        }
-        let v = &qr.as_slice()[j * n + j + 1..(j + 1) * n];
-        let s = tau[j] * (b[j] + dot(v, &b[j + 1..n]));
-        b[j] -= s;
-        sub_scaled(&mut b[j + 1..n], s, v);
-    }
+    vectorized(
+        n,
+        #[inline(always)]
+        || {
+            for j in 0..p {
+                if tau[j] != 0.0 {
+                    reflect(
+                        tau[j],
+                        &qr.as_slice()[j * n + j + 1..(j + 1) * n],
+                        &mut b[j..n],
+                    );
+                }
+            }
+        },
+    );
 }
 
 /// b ← Q·b for a factorization from [`householder_qr_in_place`] (Q = H₀·H₁···H_{p−1}).
@@ -674,13 +864,61 @@ mod tests {
                 let s: Vec<f64> = (0..n).map(|_| next().abs() + 0.1).collect();
                 let e: Vec<f64> = (0..n).map(|_| next()).collect();
                 let mut q = vec![0.0; n];
-                let (g, norm) = weighted_column(&c, &s, &e, &mut q);
+                let (g, norm) = weighted_column(&c, Some(&s), &e, &mut q);
                 let q_ref: Vec<f64> = c.iter().zip(&s).map(|(c, s)| c * s).collect();
                 assert_eq!(q, q_ref);
                 assert_eq!(g.to_bits(), dot(&q_ref, &e).to_bits(), "n = {n}");
                 assert_eq!(norm.to_bits(), norm2(&q_ref).to_bits(), "n = {n}");
+                let sums = weighted_column_sums(&c, Some(&s), &e);
+                assert_eq!(
+                    (sums.0.to_bits(), sums.1.to_bits()),
+                    (g.to_bits(), norm.to_bits())
+                );
+                // Unit weights: q is the column itself.
+                let (g, norm) = weighted_column(&c, None, &e, &mut q);
+                assert_eq!(q, c);
+                assert_eq!(g.to_bits(), dot(&c, &e).to_bits(), "n = {n}");
+                assert_eq!(norm.to_bits(), norm2(&c).to_bits(), "n = {n}");
+                let sums = weighted_column_sums(&c, None, &e);
+                assert_eq!(
+                    (sums.0.to_bits(), sums.1.to_bits()),
+                    (g.to_bits(), norm.to_bits())
+                );
             }
         }
+    }
+
+    #[test]
+    fn vector_kernels_give_the_same_bits_with_and_without_avx2() {
+        // Dot products of every length 0..80 and Householder QRs of 40 × 3 to 80 × 3
+        // matrices (values from the fixed linear congruential sequence), computed by the
+        // baseline build and, where the processor has AVX2, by the AVX2 build.
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            let mut uniform = lcg(99);
+            let mut next = || uniform().0 - 0.5;
+            for n in 0..80 {
+                let a: Vec<f64> = (0..n).map(|_| next()).collect();
+                let b: Vec<f64> = (0..n).map(|_| next()).collect();
+                let base = run_baseline(|| dot_kernel(&a, &b));
+                // SAFETY: AVX2 is present (checked above).
+                let wide = unsafe { run_avx2(|| dot_kernel(&a, &b)) };
+                assert_eq!(base.to_bits(), wide.to_bits(), "dot, n = {n}");
+            }
+            for n in 40..80 {
+                let a = DMatrix::from_fn(n, 3, |_, _| next());
+                let (mut qa, mut qb) = (a.clone(), a);
+                let (mut ta, mut tb) = (vec![0.0; 3], vec![0.0; 3]);
+                run_baseline(|| householder_qr_kernel(&mut qa, &mut ta));
+                // SAFETY: AVX2 is present (checked above).
+                unsafe { run_avx2(|| householder_qr_kernel(&mut qb, &mut tb)) };
+                let bits = |m: &DMatrix<f64>| m.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
+                assert_eq!(bits(&qa), bits(&qb), "QR, n = {n}");
+                assert_eq!(ta, tb, "tau, n = {n}");
+            }
+            return;
+        }
+        println!("no AVX2 on this processor: only the baseline build runs here");
     }
 
     fn example() -> DMatrix<f64> {

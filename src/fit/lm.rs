@@ -468,6 +468,9 @@ const ZERO_RESIDUAL: f64 = 1e-30;
 /// Buffers of one fit, allocated once.
 struct Work {
     sqrt_w: Vec<f64>,
+    /// Every √wᵢ is 1 (no weights, or all wᵢ = 1): the passes over the rows then skip the
+    /// multiplications by √w, which would not change a bit (1·x = x).
+    unit: bool,
     f: Vec<f64>,
     f_trial: Vec<f64>,
     e: Vec<f64>,
@@ -517,6 +520,7 @@ pub fn fit<M: Model + ?Sized>(
             Some(wt) => wt.iter().map(|v| v.sqrt()).collect(),
             None => vec![1.0; n],
         },
+        unit: obs.weights.is_none_or(|wt| wt.iter().all(|v| *v == 1.0)),
         f: vec![0.0; n],
         f_trial: vec![0.0; n],
         e: vec![0.0; n],
@@ -597,13 +601,14 @@ pub fn fit<M: Model + ?Sized>(
         // Weighted Jacobian, scaling and projected gradient.
         let enorm = dense::norm2(&w.e);
         let mut gnorm = 0.0_f64;
+        let sqrt_w = (!w.unit).then_some(&w.sqrt_w[..]);
         for j in 0..p {
             let col = &w.jac.as_slice()[j * n..(j + 1) * n];
             let (g, c) = if streaming {
-                dense::weighted_column_sums(col, &w.sqrt_w, &w.e)
+                dense::weighted_column_sums(col, sqrt_w, &w.e)
             } else {
                 let qcol = &mut w.qr.as_mut_slice()[j * n..(j + 1) * n];
-                dense::weighted_column(col, &w.sqrt_w, &w.e, qcol)
+                dense::weighted_column(col, sqrt_w, &w.e, qcol)
             };
             w.col_norm[j] = c;
             w.diag[j] = w.diag[j].max(c);
@@ -889,21 +894,56 @@ fn second_difference(jac: &[f64], n: usize, i: usize, v: &[f64], ft: f64, f: f64
     for (j, vj) in v.iter().enumerate() {
         jv += jac[j * n + i] * vj;
     }
+    second_difference_of(ft, f, jv)
+}
+
+/// f_vv at a row from f(θ + h·v), f(θ) and (J·v) there: (2/h)·((f̃ − f)/h − J·v).
+#[inline(always)]
+fn second_difference_of(ft: f64, f: f64, jv: f64) -> f64 {
     (2.0 / ACCEL_H) * ((ft - f) / ACCEL_H - jv)
 }
 
 /// rhs = −W½·f_vv, f_vv ≈ (2/h)·((f(θ + h·v) − f(θ))/h − J·v) with f(θ + h·v) in `w.f_trial`
 /// (see the module docs); false when a value at θ + h·v is not finite.
+///
+/// J·v is accumulated into `rhs` column after column, row by row the same sum as in
+/// [`second_difference`] (0 + J₀v₀ + J₁v₁ + …, in that order) and so the same bits, in
+/// passes the compiler vectorizes over the rows.
 fn second_directional(w: &mut Work, n: usize, p: usize) -> bool {
-    let jac = w.jac.as_slice();
-    let (ft, f, sw, v) = (&w.f_trial[..n], &w.f[..n], &w.sqrt_w[..n], &w.v[..p]);
+    let jac = &w.jac.as_slice()[..n * p];
+    let (ft, f, v) = (&w.f_trial[..n], &w.f[..n], &w.v[..p]);
+    let sqrt_w = (!w.unit).then_some(&w.sqrt_w[..n]);
     let rhs = &mut w.rhs[..n];
-    let mut finite = true;
-    for i in 0..n {
-        finite &= ft[i].abs() < f64::INFINITY;
-        rhs[i] = -sw[i] * second_difference(jac, n, i, v, ft[i], f[i]);
-    }
-    finite
+    dense::vectorized(
+        n,
+        #[inline(always)]
+        || {
+            rhs.fill(0.0);
+            for (col, vj) in jac.chunks_exact(n).zip(v) {
+                for (r, c) in rhs.iter_mut().zip(col) {
+                    *r += c * vj;
+                }
+            }
+            let mut finite = true;
+            let rows = rhs.iter_mut().zip(ft).zip(f);
+            match sqrt_w {
+                // −1·x = −x exactly.
+                None => {
+                    for ((r, ft), f) in rows {
+                        finite &= ft.abs() < f64::INFINITY;
+                        *r = -second_difference_of(*ft, *f, *r);
+                    }
+                }
+                Some(sw) => {
+                    for (((r, ft), f), sw) in rows.zip(sw) {
+                        finite &= ft.abs() < f64::INFINITY;
+                        *r = -sw * second_difference_of(*ft, *f, *r);
+                    }
+                }
+            }
+            finite
+        },
+    )
 }
 
 /// The first p entries of Qᵀ·rhs for rhs = −W½·f_vv (see [`second_directional`]) as
@@ -961,21 +1001,27 @@ struct TrialSums {
 /// sums agree in most digits — and a bound on its rounding noise,
 /// Σ |eᵢ + ẽᵢ|·√wᵢ·(|fᵢ| + |f̃ᵢ|)·16ε (each model value carries a relative rounding error of
 /// a few ε, which enters eᵢ − ẽᵢ = √wᵢ·(f̃ᵢ − fᵢ)). None when a trial value is not finite.
+///
+/// The three sums run over the rows in order; with unit weights the multiplications by
+/// √wᵢ = 1 are left out (1·x = x exactly).
 fn trial_sums(y: &[f64], w: &mut Work) -> Option<TrialSums> {
     let n = y.len();
-    let (f, ft, sw, e) = (&w.f[..n], &w.f_trial[..n], &w.sqrt_w[..n], &w.e[..n]);
+    let (f, ft, e) = (&w.f[..n], &w.f_trial[..n], &w.e[..n]);
     let et = &mut w.e_trial[..n];
-    let (mut ssr, mut actual, mut noise) = (0.0, 0.0, 0.0);
-    let mut finite = true;
-    for i in 0..n {
-        finite &= ft[i].abs() < f64::INFINITY;
-        let b = sw[i] * (y[i] - ft[i]);
-        et[i] = b;
-        ssr += b * b;
-        let a = e[i];
-        actual += (a - b) * (a + b);
-        noise += (a + b).abs() * sw[i] * (f[i].abs() + ft[i].abs());
-    }
+    let (finite, ssr, actual, noise) = if w.unit {
+        dense::vectorized(
+            n,
+            #[inline(always)]
+            || trial_rows::<true>(y, f, ft, e, e, et),
+        )
+    } else {
+        let sw = &w.sqrt_w[..n];
+        dense::vectorized(
+            n,
+            #[inline(always)]
+            || trial_rows::<false>(y, f, ft, sw, e, et),
+        )
+    };
     finite.then_some(TrialSums {
         ssr,
         actual,
@@ -983,10 +1029,40 @@ fn trial_sums(y: &[f64], w: &mut Work) -> Option<TrialSums> {
     })
 }
 
+/// The pass of [`trial_sums`]: ẽ into `et`; whether every f̃ᵢ is finite, SSR_trial, the actual
+/// reduction and the unscaled noise sum. With `UNIT`, `sw` is not read.
+#[inline(always)]
+fn trial_rows<const UNIT: bool>(
+    y: &[f64],
+    f: &[f64],
+    ft: &[f64],
+    sw: &[f64],
+    e: &[f64],
+    et: &mut [f64],
+) -> (bool, f64, f64, f64) {
+    let weigh = |s: f64, x: f64| if UNIT { x } else { s * x };
+    let (mut ssr, mut actual, mut noise) = (0.0, 0.0, 0.0);
+    let mut finite = true;
+    let rows = y.iter().zip(f).zip(ft).zip(sw).zip(e).zip(et);
+    for (((((y, f), ft), sw), a), et) in rows {
+        finite &= ft.abs() < f64::INFINITY;
+        let b = weigh(*sw, y - ft);
+        *et = b;
+        ssr += b * b;
+        actual += (a - b) * (a + b);
+        noise += weigh(*sw, (a + b).abs()) * (f.abs() + ft.abs());
+    }
+    (finite, ssr, actual, noise)
+}
+
 /// Whether every value is finite: a fold without early exit, which the compiler vectorizes
 /// (these checks run over n or n·p values on every trial).
 fn all_finite(xs: &[f64]) -> bool {
-    xs.iter().fold(true, |ok, v| ok & (v.abs() < f64::INFINITY))
+    dense::vectorized(
+        xs.len(),
+        #[inline(always)]
+        || xs.iter().fold(true, |ok, v| ok & (v.abs() < f64::INFINITY)),
+    )
 }
 
 /// e = W½·(y − f); returns ‖e‖².
