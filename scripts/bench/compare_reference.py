@@ -17,7 +17,8 @@ kernel threadpoolctl reports.)
     difference of each parameter between the two tools.
 (c) nist: the 54 NIST StRD nonlinear fits (27 problems x 2 starts). fitwright's per-fit times
     and parameters come from `cargo bench --bench nist_compare`; scipy curve_fit (defaults) fits
-    the same files from the same starts, timed the same way (median of repeated fits). Both are
+    the same files from the same starts, timed the same way (median of repeated fits), one
+    problem at a time alternating between the two so that both see the same machine load. Both are
     scored by the LRE against the certified values as printed in the files,
     LRE = -log10(|b - c| / |c|) capped at the certified digits (McCullough 1999, "Assessing the
     reliability of statistical software", Am. Stat. 53(2)). Data: NIST ITL StRD "Nonlinear
@@ -148,6 +149,13 @@ def lre(b, c, digits):
     return max(0.0, min(float(digits), -math.log10(rel)))
 
 
+# The 27 problems in the order of the StRD pages (lower, average, higher difficulty).
+NIST_ORDER = ["Misra1a", "Chwirut2", "Chwirut1", "Lanczos3", "Gauss1", "Gauss2", "DanWood",
+              "Misra1b", "Kirby2", "Hahn1", "Nelson", "MGH17", "Lanczos1", "Lanczos2", "Gauss3",
+              "Misra1c", "Misra1d", "Roszman1", "ENSO", "MGH09", "Thurber", "BoxBOD", "Rat42",
+              "MGH10", "Eckerle4", "Rat43", "Bennett5"]
+
+
 def models():
     import numpy as np
     pi = np.pi
@@ -202,13 +210,19 @@ def nist(a):
         print("(c) skipped: NIST StRD files not found at ../shared/reference-data/nist-strd/ "
               "(or $FITWRIGHT_STRD_DIR); they come from NIST ITL's StRD pages")
         return
-    out = subprocess.run([bench_binary("nist_compare")], cwd=ROOT, check=True,
-                         capture_output=True, text=True).stdout
-    ours = [l.split("\t") for l in out.splitlines()[1:] if l.strip()]
     fns = models()
+    binary = bench_binary("nist_compare")
+
+    def ours_for(name):
+        # One problem at a time, alternating with the reference below, so that a change of
+        # load on this shared machine falls on both sides of each ratio alike.
+        out = subprocess.run([binary, name], cwd=ROOT, check=True,
+                             capture_output=True, text=True).stdout
+        return [l.split("\t") for l in out.splitlines()[1:] if l.strip()]
+
     rows = []
     np.seterr(all="ignore")
-    for r in ours:
+    for r in (r for name in NIST_ORDER for r in ours_for(name) if r[0] == name):
         name, level, start = r[0], r[1], int(r[2])
         params, data = parse_strd(os.path.join(d, f"{name}.dat"))
         for j, p in enumerate(params):
