@@ -500,7 +500,9 @@ pub(crate) fn solve_upper(r: &DMatrix<f64>, b: &[f64], x: &mut [f64]) -> bool {
 /// Buffers for [`damped_solve`], allocated once per fit.
 #[derive(Debug, Clone)]
 pub(crate) struct DampedWork {
-    s: DMatrix<f64>,
+    /// The p × p triangle being reduced, row by row (row k at `k·p..(k + 1)·p`), so that the
+    /// rotation of a row's tail runs over contiguous memory.
+    s: Vec<f64>,
     sdiag: Vec<f64>,
     z: Vec<f64>,
 }
@@ -508,7 +510,7 @@ pub(crate) struct DampedWork {
 impl DampedWork {
     pub(crate) fn new(p: usize) -> Self {
         DampedWork {
-            s: DMatrix::zeros(p, p),
+            s: vec![0.0; p * p],
             sdiag: vec![0.0; p],
             z: vec![0.0; p],
         }
@@ -533,47 +535,60 @@ pub(crate) fn damped_solve(
     work: &mut DampedWork,
     x: &mut [f64],
 ) -> bool {
-    let p = qr.ncols();
+    let (n, p) = qr.shape();
+    let q = qr.as_slice();
     let sqrt_lambda = lambda.sqrt();
-    let s = &mut work.s;
-    for j in 0..p {
-        for i in 0..p {
-            s[(i, j)] = if i <= j { qr[(i, j)] } else { 0.0 };
+    let s = &mut work.s[..p * p];
+    // The upper triangle of R, row-major: s[k·p + i] = R[k, i] (column-major qr: i·n + k).
+    for (k, row) in s.chunks_exact_mut(p).enumerate() {
+        for (i, v) in row.iter_mut().enumerate() {
+            *v = if k <= i { q[i * n + k] } else { 0.0 };
         }
     }
-    work.z[..p].copy_from_slice(&qtb[..p]);
+    let (z, sdiag, x) = (&mut work.z[..p], &mut work.sdiag[..p], &mut x[..p]);
+    z.copy_from_slice(&qtb[..p]);
     for j in 0..p {
         let dj = sqrt_lambda * diag[j];
         if dj == 0.0 {
             continue;
         }
-        for v in &mut work.sdiag[j..p] {
-            *v = 0.0;
-        }
-        work.sdiag[j] = dj;
+        sdiag[j..].fill(0.0);
+        sdiag[j] = dj;
         // The extra row starts with right-hand side 0.
         let mut qtbpj = 0.0;
         for k in j..p {
-            let sk = work.sdiag[k];
+            let sk = sdiag[k];
             if sk == 0.0 {
                 continue;
             }
-            let rkk = s[(k, k)];
+            let row = &mut s[k * p..(k + 1) * p];
+            let rkk = row[k];
             let (cos, sin) = givens(rkk, sk);
-            s[(k, k)] = cos * rkk + sin * sk;
-            let zk = work.z[k];
-            work.z[k] = cos * zk + sin * qtbpj;
+            row[k] = cos * rkk + sin * sk;
+            let zk = z[k];
+            z[k] = cos * zk + sin * qtbpj;
             qtbpj = -sin * zk + cos * qtbpj;
-            for i in k + 1..p {
-                let ski = s[(k, i)];
-                let di = work.sdiag[i];
-                s[(k, i)] = cos * ski + sin * di;
-                work.sdiag[i] = -sin * ski + cos * di;
+            for (ski, di) in row[k + 1..].iter_mut().zip(&mut sdiag[k + 1..]) {
+                let (a, b) = (*ski, *di);
+                *ski = cos * a + sin * b;
+                *di = -sin * a + cos * b;
             }
         }
     }
-    let ok = solve_upper(s, &work.z, x);
-    ok && x[..p].iter().all(|v| v.is_finite())
+    // Back substitution, in the order of `solve_upper`.
+    for i in (0..p).rev() {
+        let row = &s[i * p..(i + 1) * p];
+        let mut acc = z[i];
+        for (r, xk) in row[i + 1..].iter().zip(&x[i + 1..]) {
+            acc -= r * xk;
+        }
+        let d = row[i];
+        if d == 0.0 {
+            return false;
+        }
+        x[i] = acc / d;
+    }
+    x.iter().all(|v| v.is_finite())
 }
 
 /// Givens rotation (c, s) with c·a + s·b = r, −s·a + c·b = 0, computed without overflow.
