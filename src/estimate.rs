@@ -112,20 +112,7 @@ impl LmModel for TapeModel<'_> {
         j_out: &mut DMatrix<f64>,
     ) -> std::result::Result<(), ModelError> {
         let mut f = self.scratch.borrow_mut();
-        let mut outs: Vec<&mut [f64]> = Vec::with_capacity(self.p + 1);
-        outs.push(f.as_mut_slice());
-        // DMatrix is column-major: each column is a contiguous slice of n values.
-        for col in j_out.as_mut_slice().chunks_mut(self.n.max(1)) {
-            outs.push(col);
-        }
-        self.tape
-            .eval_in(
-                &mut self.work.borrow_mut(),
-                &self.columns,
-                params,
-                &mut outs,
-            )
-            .map_err(|e| self.error(e))
+        self.eval_with_jacobian(params, f.as_mut_slice(), j_out)
     }
 
     /// The Jacobian tape's first output is the model itself, to the last bit the value tape's
@@ -136,18 +123,28 @@ impl LmModel for TapeModel<'_> {
         f_out: &mut [f64],
         j_out: &mut DMatrix<f64>,
     ) -> std::result::Result<(), ModelError> {
-        let mut outs: Vec<&mut [f64]> = Vec::with_capacity(self.p + 1);
-        outs.push(f_out);
-        for col in j_out.as_mut_slice().chunks_mut(self.n.max(1)) {
-            outs.push(col);
-        }
+        // The output slices: the values, then the Jacobian's columns (DMatrix is column-major:
+        // each column is a contiguous slice of n values). On the stack for up to 15
+        // parameters, so that the evaluations of a fit allocate nothing.
+        const ON_STACK: usize = 16;
+        let columns = j_out.as_mut_slice().chunks_mut(self.n.max(1));
+        let mut stack: [&mut [f64]; ON_STACK] = std::array::from_fn(|_| Default::default());
+        let mut heap: Vec<&mut [f64]>;
+        let outs: &mut [&mut [f64]] = if self.p < ON_STACK {
+            let mut k = 0;
+            for (slot, out) in stack.iter_mut().zip(std::iter::once(f_out).chain(columns)) {
+                *slot = out;
+                k += 1;
+            }
+            &mut stack[..k]
+        } else {
+            heap = Vec::with_capacity(self.p + 1);
+            heap.push(f_out);
+            heap.extend(columns);
+            &mut heap
+        };
         self.tape
-            .eval_in(
-                &mut self.work.borrow_mut(),
-                &self.columns,
-                params,
-                &mut outs,
-            )
+            .eval_in(&mut self.work.borrow_mut(), &self.columns, params, outs)
             .map_err(|e| self.error(e))
     }
 }
