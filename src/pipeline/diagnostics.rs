@@ -20,7 +20,8 @@ pub struct Diagnostics {
     pub lack_of_fit_p: Measure,
     pub max_cooks: Measure,
     pub standardized: Vec<Option<f64>>,
-    pub leverage: Vec<Option<f64>>,
+    /// Leverage per row (every row has one when the influence figures were computed).
+    pub leverage: Vec<f64>,
     pub cooks: Vec<Option<f64>>,
     pub aic: Option<f64>,
     pub aicc: Option<f64>,
@@ -288,7 +289,7 @@ pub fn compute(recipe: &Recipe, prep: &Prepared, solved: &Solved) -> Diagnostics
             }
             d.json
                 .insert("max_cooks_distance".into(), serde_json::json!(cmax));
-            d.leverage = inf.leverage.into_iter().map(Some).collect();
+            d.leverage = inf.leverage;
             d.standardized = inf.standardized;
             d.cooks = inf.cooks_distance;
         }

@@ -281,7 +281,7 @@ pub fn result_doc(
                 .and_then(|w| w.get(i).copied())
                 .unwrap_or(1.0),
             standardized: diag.standardized.get(i).copied().flatten(),
-            leverage: diag.leverage.get(i).copied().flatten(),
+            leverage: diag.leverage.get(i).copied(),
             cooks_distance: diag.cooks.get(i).copied().flatten(),
         })
         .collect();
