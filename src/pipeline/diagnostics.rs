@@ -20,7 +20,8 @@ pub struct Diagnostics {
     pub lack_of_fit_p: Measure,
     pub max_cooks: Measure,
     pub standardized: Vec<Option<f64>>,
-    pub leverage: Vec<Option<f64>>,
+    /// Leverage per row (every row has one when the influence figures were computed).
+    pub leverage: Vec<f64>,
     pub cooks: Vec<Option<f64>>,
     pub aic: Option<f64>,
     pub aicc: Option<f64>,
@@ -218,20 +219,21 @@ pub fn compute(recipe: &Recipe, prep: &Prepared, solved: &Solved) -> Diagnostics
         }
         Err(e) => d.normality_p = Measure::NotApplicable(e.to_string()),
     }
-    // Leverage, standardized residuals, Cook's distance.
-    // The weighted design W½·J of the free columns, built in one pass (one n × p copy; on a
-    // million rows each copy is 24 MB).
+    // Leverage, standardized residuals, Cook's distance of the weighted design W½·J of the
+    // free columns, passed as J's columns and the weights: for large n the design is never
+    // copied (each n × p copy of a million rows is 24 MB).
     let jac = &est.jacobian;
-    let free_cols: Vec<usize> = (0..jac.ncols())
+    let rows = jac.nrows();
+    let free_cols: Vec<&[f64]> = (0..jac.ncols())
         .filter(|j| !est.at_bound.get(*j).copied().unwrap_or(false))
+        .filter_map(|j| jac.as_slice().get(j * rows..(j + 1) * rows))
         .collect();
-    let a = nalgebra::DMatrix::from_fn(jac.nrows(), free_cols.len(), |i, k| {
-        let sw = w.map_or(1.0, |w| w.get(i).copied().unwrap_or(1.0).sqrt());
-        jac[(i, free_cols[k])] * sw
-    });
-    let influence =
-        stats::influence::influence(&a, &est.residuals, w, solved.statistics.residual_sd);
-    drop(a);
+    let influence = stats::influence::influence_of_columns(
+        &free_cols,
+        &est.residuals,
+        w,
+        solved.statistics.residual_sd,
+    );
     match influence {
         Ok(inf) => {
             let (imax, cmax) = inf
@@ -287,7 +289,7 @@ pub fn compute(recipe: &Recipe, prep: &Prepared, solved: &Solved) -> Diagnostics
             }
             d.json
                 .insert("max_cooks_distance".into(), serde_json::json!(cmax));
-            d.leverage = inf.leverage.into_iter().map(Some).collect();
+            d.leverage = inf.leverage;
             d.standardized = inf.standardized;
             d.cooks = inf.cooks_distance;
         }

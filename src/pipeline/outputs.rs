@@ -220,6 +220,10 @@ fn residual_selection(
         };
         if v.is_nan() { f64::INFINITY } else { v }
     };
+    // Sizes are taken once, not twice per comparison: the same comparisons on the same
+    // values, so the same rows.
+    let sizes: Vec<f64> = (0..n).map(size).collect();
+    let size = |i: usize| sizes.get(i).copied().unwrap_or(f64::INFINITY);
     let mut rows: Vec<usize> = (0..n).collect();
     let k = RESIDUAL_ROWS_KEPT.min(n);
     rows.select_nth_unstable_by(k - 1, |&a, &b| size(b).total_cmp(&size(a)));
@@ -277,7 +281,7 @@ pub fn result_doc(
                 .and_then(|w| w.get(i).copied())
                 .unwrap_or(1.0),
             standardized: diag.standardized.get(i).copied().flatten(),
-            leverage: diag.leverage.get(i).copied().flatten(),
+            leverage: diag.leverage.get(i).copied(),
             cooks_distance: diag.cooks.get(i).copied().flatten(),
         })
         .collect();

@@ -11,7 +11,14 @@
 //! memory), with Pearson residuals `√w·e`:
 //! - leverage `h = diag(A(AᵀA)⁻¹Aᵀ) = diag(W½J(JᵀWJ)⁻¹JᵀW½)`, computed from
 //!   the thin QR factorization `A = QR` as `h_i = ‖row i of Q‖²`, never from
-//!   the normal equations;
+//!   the normal equations. Below [`LEVERAGE_FROM_R_FROM`] rows Q is formed
+//!   explicitly; from there on only R is computed (in blocks of rows, Q never
+//!   stored) and `h_i = ‖R⁻ᵀ·a_iᵀ‖²`, a_i row i of A, by the exact identity
+//!   `Q = A·R⁻¹` of the thin QR (Golub & Van Loan, *Matrix Computations*,
+//!   3rd ed., §5.2 on the thin QR and §5.3 on least squares — from memory).
+//!   Its rounding error grows with cond(R), which column scaling keeps small
+//!   for calibration designs; the explicit-Q path keeps every reference test
+//!   on its former figures;
 //! - standardized (internally studentized) `r_i = √w_i·e_i / (s·√(1 − h_i))`;
 //! - externally studentized `t_i = √w_i·e_i / (s_(i)·√(1 − h_i))` with the
 //!   leave-one-out variance `s_(i)² = (Σw·e² − w_i·e_i²/(1 − h_i))/(n − p − 1)`;
@@ -41,25 +48,99 @@ pub struct Influence {
     pub cooks_distance: Vec<Option<f64>>,
 }
 
+/// Rows from which leverage is computed from R alone (see the module docs): the
+/// explicit Q of a million rows and three columns is a 24 MB matrix written and
+/// read once more, besides the 24 MB copy its factorization works on. The
+/// solver switches its own QR at the same size (`fit::lm::STREAMING_QR_FROM`).
+pub const LEVERAGE_FROM_R_FROM: usize = 50_000;
+
+/// Rows per block of the R-only factorization: the (p + block) × p buffer
+/// stays in cache for the few columns of calibration models (common practice,
+/// not tuned).
+const R_BLOCK: usize = 256;
+
 /// Leverage `h_i = ‖Q_i‖²` of the rows of the weighted design `a` (n × p,
 /// n ≥ p) from its Householder thin QR factorization. Columns are scaled to
 /// unit norm first (leverage does not change under column scaling); rank is
 /// judged on the scaled factor with tolerance `max(n, p)·ε·max|R_jj|`
-/// (SPEC §13).
+/// (SPEC §13). From [`LEVERAGE_FROM_R_FROM`] rows on, `h_i = ‖R⁻ᵀa_iᵀ‖²`.
 pub fn leverage(a: &DMatrix<f64>) -> Result<Vec<f64>, StatsError> {
     let (n, p) = a.shape();
+    if n < LEVERAGE_FROM_R_FROM {
+        check_design(n, p)?;
+        if let Some(index) = a.iter().position(|v| !v.is_finite()) {
+            return Err(StatsError::NonFinite {
+                what: "design matrix",
+                index,
+            });
+        }
+        return leverage_explicit_q(a);
+    }
+    let columns: Vec<&[f64]> = (0..p).map(|j| &a.as_slice()[j * n..(j + 1) * n]).collect();
+    leverage_of_columns(&columns, None)
+}
+
+fn check_design(n: usize, p: usize) -> Result<(), StatsError> {
     if n < p || p == 0 {
         return Err(StatsError::InvalidArgument {
             what: "design matrix",
             reason: format!("{n} rows and {p} columns; at least one column and n ≥ p needed"),
         });
     }
-    if let Some(index) = a.iter().position(|v| !v.is_finite()) {
+    Ok(())
+}
+
+/// Leverage of the design `A = diag(√w)·[c₀ … c_{p−1}]` given by its columns
+/// (each of length n) and optional weights `w` (`None`: all 1), without
+/// forming A for large n. Same figures as [`leverage`] of that matrix.
+pub fn leverage_of_columns(
+    columns: &[&[f64]],
+    weights: Option<&[f64]>,
+) -> Result<Vec<f64>, StatsError> {
+    let p = columns.len();
+    let n = columns.first().map_or(0, |c| c.len());
+    check_design(n, p)?;
+    for c in columns {
+        ensure_len("design column", c, n)?;
+    }
+    if let Some(w) = weights {
+        ensure_len("weights", w, n)?;
+    }
+    if n >= LEVERAGE_FROM_R_FROM {
+        // It checks finiteness in its pass over the column norms.
+        return leverage_from_r(columns, weights);
+    }
+    if let Some(index) = first_non_finite(columns, weights, 0..p) {
         return Err(StatsError::NonFinite {
             what: "design matrix",
             index,
         });
     }
+    let row_scale = |i: usize| weights.map_or(1.0, |w| w[i].sqrt());
+    let a = DMatrix::from_fn(n, p, |i, j| columns[j][i] * row_scale(i));
+    leverage_explicit_q(&a)
+}
+
+/// Column-major index (as `DMatrix::iter` counts) of the first non-finite entry of
+/// `A = diag(√w)·[c₀ …]` among the columns `cols`.
+fn first_non_finite(
+    columns: &[&[f64]],
+    weights: Option<&[f64]>,
+    cols: std::ops::Range<usize>,
+) -> Option<usize> {
+    let n = columns.first().map_or(0, |c| c.len());
+    let row_scale = |i: usize| weights.map_or(1.0, |w| w[i].sqrt());
+    cols.into_iter().find_map(|j| {
+        let c = columns.get(j)?;
+        (0..n)
+            .position(|i| !(c[i] * row_scale(i)).is_finite())
+            .map(|i| j * n + i)
+    })
+}
+
+/// The explicit-Q path of [`leverage`]; `a` is finite with n ≥ p ≥ 1.
+fn leverage_explicit_q(a: &DMatrix<f64>) -> Result<Vec<f64>, StatsError> {
+    let (n, p) = a.shape();
     let mut scaled = a.clone();
     for mut col in scaled.column_iter_mut() {
         let norm = col.norm();
@@ -79,6 +160,147 @@ pub fn leverage(a: &DMatrix<f64>) -> Result<Vec<f64>, StatsError> {
     Ok(q.row_iter().map(|row| row.norm_squared()).collect())
 }
 
+/// The R-only path of [`leverage_of_columns`] (inputs checked there: n ≥ p ≥ 1,
+/// equal lengths; a non-finite entry is found here, in the pass over the column norms). Columns of A are scaled to unit norm, R of
+/// the scaled matrix is taken by Householder reflections over blocks of
+/// [`R_BLOCK`] rows stacked under the current R (the sequential TSQR of
+/// Demmel, Grigori, Hoemmen & Langou, SIAM J. Sci. Comput. 34(1), 2012 —
+/// backward stable like one Householder QR), and `h_i = ‖z‖²` with
+/// `Rᵀz = ã_iᵀ` solved by forward substitution. Sequential, so the result
+/// does not depend on the number of threads.
+fn leverage_from_r(columns: &[&[f64]], weights: Option<&[f64]>) -> Result<Vec<f64>, StatsError> {
+    let p = columns.len();
+    let n = columns.first().map_or(0, |c| c.len());
+    // √w of rows lo..lo + len (1 without weights: multiplying by 1 is exact).
+    let fill_scale = |scale: &mut Vec<f64>, lo: usize, len: usize| {
+        scale.clear();
+        match weights {
+            Some(w) => scale.extend(w[lo..lo + len].iter().map(|w| w.sqrt())),
+            None => scale.resize(len, 1.0),
+        }
+    };
+    let mut scale = Vec::with_capacity(R_BLOCK);
+    // Scale factors 1/‖A_j‖ (a zero column keeps factor 1 and makes R singular).
+    let mut sums = vec![0.0f64; p];
+    let mut lo = 0;
+    while lo < n {
+        let len = R_BLOCK.min(n - lo);
+        fill_scale(&mut scale, lo, len);
+        for (sum, c) in sums.iter_mut().zip(columns) {
+            for (v, s) in c[lo..lo + len].iter().zip(&scale) {
+                let a = v * s;
+                *sum += a * a;
+            }
+        }
+        lo += len;
+    }
+    let mut inv_norm = Vec::with_capacity(p);
+    for (j, (c, sum)) in columns.iter().zip(&sums).enumerate() {
+        // A non-finite entry makes its column's sum non-finite; earlier columns have none.
+        if !sum.is_finite()
+            && let Some(index) = first_non_finite(columns, weights, j..j + 1)
+        {
+            return Err(StatsError::NonFinite {
+                what: "design matrix",
+                index,
+            });
+        }
+        let norm = if sum.is_finite() {
+            sum.sqrt()
+        } else {
+            // Entries so large that their squares overflow: the norm scaled by the
+            // largest magnitude (rare).
+            let a = |i: usize| c[i] * weights.map_or(1.0, |w| w[i].sqrt());
+            let big = (0..n).fold(0.0f64, |m, i| m.max(a(i).abs()));
+            big * (0..n).map(|i| (a(i) / big).powi(2)).sum::<f64>().sqrt()
+        };
+        inv_norm.push(if norm > 0.0 { 1.0 / norm } else { 1.0 });
+    }
+    let ld = p + R_BLOCK;
+    // Column-major (p + block) × p: rows 0..p hold R, rows p.. the next block.
+    let mut work = vec![0.0f64; ld * p];
+    let mut lo = 0;
+    while lo < n {
+        let len = R_BLOCK.min(n - lo);
+        let m = p + len;
+        fill_scale(&mut scale, lo, len);
+        for (j, c) in columns.iter().enumerate() {
+            let dest = &mut work[j * ld + p..j * ld + m];
+            for ((d, v), s) in dest.iter_mut().zip(&c[lo..lo + len]).zip(&scale) {
+                *d = v * s * inv_norm[j];
+            }
+        }
+        for j in 0..p {
+            let (left, right) = work.split_at_mut((j + 1) * ld);
+            let x = &mut left[j * ld + j..j * ld + m];
+            let alpha = x[0];
+            let tail_norm = x[1..].iter().map(|v| v * v).sum::<f64>().sqrt();
+            if tail_norm == 0.0 {
+                continue;
+            }
+            // Reflector mapping x to (β, 0, …, 0), β = −sign(x₀)·‖x‖ against
+            // cancellation (Golub & Van Loan §5.1.2, from memory); v = (1, x[1..]/(x₀ − β)).
+            let beta = -alpha.signum() * alpha.hypot(tail_norm);
+            let tau = (beta - alpha) / beta;
+            let inv = 1.0 / (alpha - beta);
+            for v in &mut x[1..] {
+                *v *= inv;
+            }
+            x[0] = beta;
+            let v = &x[1..];
+            for k in 0..(p - j - 1) {
+                let ck = &mut right[k * ld + j..k * ld + m];
+                let t = tau * (ck[0] + v.iter().zip(&ck[1..]).map(|(a, b)| a * b).sum::<f64>());
+                ck[0] -= t;
+                for (c, vi) in ck[1..].iter_mut().zip(v) {
+                    *c -= t * vi;
+                }
+            }
+            // The rows below the diagonal start the next block at zero.
+            x[1..].fill(0.0);
+        }
+        lo += len;
+    }
+    // R: column k of the upper triangle is work[k·ld .. k·ld + k + 1].
+    let r_col = |k: usize| &work[k * ld..k * ld + k + 1];
+    let diag_max = (0..p).fold(0.0f64, |m, k| m.max(r_col(k)[k].abs()));
+    let tol = n.max(p) as f64 * f64::EPSILON * diag_max;
+    let rank = (0..p).filter(|&k| r_col(k)[k].abs() > tol).count();
+    if rank < p || diag_max == 0.0 {
+        return Err(StatsError::RankDeficient { rank, columns: p });
+    }
+    // Forward substitution Rᵀz = ã for a block of rows at a time, one unknown zₖ over the
+    // whole block per step: each row sees the same operations in the same order as alone.
+    let mut h = vec![0.0f64; n];
+    let mut z = vec![0.0f64; p * R_BLOCK];
+    let mut lo = 0;
+    while lo < n {
+        let len = R_BLOCK.min(n - lo);
+        fill_scale(&mut scale, lo, len);
+        for (k, c) in columns.iter().enumerate() {
+            let rk = r_col(k);
+            let (done, rest) = z.split_at_mut(k * R_BLOCK);
+            let zk = &mut rest[..len];
+            for ((zi, v), s) in zk.iter_mut().zip(&c[lo..lo + len]).zip(&scale) {
+                *zi = v * s * inv_norm[k];
+            }
+            for (j, rjk) in rk[..k].iter().enumerate() {
+                let zj = &done[j * R_BLOCK..j * R_BLOCK + len];
+                for (zi, zji) in zk.iter_mut().zip(zj) {
+                    *zi -= rjk * zji;
+                }
+            }
+            let rkk = rk[k];
+            for (hi, zi) in h[lo..lo + len].iter_mut().zip(zk.iter_mut()) {
+                *zi /= rkk;
+                *hi += *zi * *zi;
+            }
+        }
+        lo += len;
+    }
+    Ok(h)
+}
+
 /// Influence figures for a fit with weighted design `a` (n × p), residuals
 /// `e = y − ŷ` in response units, weights `w` (`None`: all 1) and residual
 /// standard error `s` (SPEC §6: `s = √(Σw·e²/(n − p))`; pass `s = 1` for
@@ -90,6 +312,39 @@ pub fn influence(
     s: f64,
 ) -> Result<Influence, StatsError> {
     let (n, p) = a.shape();
+    figures(n, p, residuals, weights, s, || leverage(a))
+}
+
+/// [`influence`] of the design `A = diag(√w)·[c₀ … c_{p−1}]` given by the
+/// unweighted columns (for a fit, the columns of the Jacobian J of the free
+/// parameters) and the weights `w`, without forming A for large n (see
+/// [`leverage_of_columns`]).
+pub fn influence_of_columns(
+    columns: &[&[f64]],
+    residuals: &[f64],
+    weights: Option<&[f64]>,
+    s: f64,
+) -> Result<Influence, StatsError> {
+    figures(
+        residuals.len(),
+        columns.len(),
+        residuals,
+        weights,
+        s,
+        || leverage_of_columns(columns, weights),
+    )
+}
+
+/// The figures of [`influence`] from the leverage `h` (computed once the
+/// other inputs are checked).
+fn figures(
+    n: usize,
+    p: usize,
+    residuals: &[f64],
+    weights: Option<&[f64]>,
+    s: f64,
+    h: impl FnOnce() -> Result<Vec<f64>, StatsError>,
+) -> Result<Influence, StatsError> {
     ensure_len("residuals", residuals, n)?;
     ensure_finite("residuals", residuals)?;
     let ones;
@@ -116,7 +371,8 @@ pub fn influence(
             reason: format!("residual standard error must be positive and finite, got {s}"),
         });
     }
-    let h = leverage(a)?;
+    let h = h()?;
+    ensure_len("leverage", &h, n)?;
     let pearson: Vec<f64> = residuals
         .iter()
         .zip(w)
@@ -171,6 +427,90 @@ mod tests {
             assert!((hi - exact).abs() < 1e-14, "{hi} vs {exact}");
         }
         assert!((h.iter().sum::<f64>() - 2.0).abs() < 1e-14);
+    }
+
+    /// A 60,000-row weighted design of an invented decay-sensor calibration:
+    /// columns 1, t, exp(−0.3·t), t² for t in [0, 10], weights 1/(1 + 0.1·t)².
+    fn decay_design(n: usize) -> (Vec<Vec<f64>>, Vec<f64>) {
+        let t: Vec<f64> = (0..n).map(|i| 10.0 * i as f64 / (n - 1) as f64).collect();
+        let columns = vec![
+            vec![1.0; n],
+            t.clone(),
+            t.iter().map(|t| (-0.3 * t).exp()).collect(),
+            t.iter().map(|t| t * t).collect(),
+        ];
+        let w = t.iter().map(|t| 1.0 / (1.0 + 0.1 * t).powi(2)).collect();
+        (columns, w)
+    }
+
+    #[test]
+    fn leverage_from_r_agrees_with_the_explicit_q_of_the_same_design() {
+        let n = 60_000;
+        assert!(n >= LEVERAGE_FROM_R_FROM);
+        let (columns, w) = decay_design(n);
+        let cols: Vec<&[f64]> = columns.iter().map(Vec::as_slice).collect();
+        let from_r = leverage_of_columns(&cols, Some(&w)).unwrap();
+        let a = DMatrix::from_fn(n, cols.len(), |i, j| cols[j][i] * w[i].sqrt());
+        let explicit = leverage_explicit_q(&a).unwrap();
+        // The same matrix through the public entry takes the R path too.
+        assert_eq!(leverage(&a).unwrap(), from_r);
+        // Tolerance: both paths are backward stable and differ by rounding of order
+        // ε·cond(Ã) relative to the largest leverage. cond(Ã) of the unit-column design is
+        // 117 (numpy.linalg.cond, computed once); the observed worst difference is 4e-12 of
+        // h_max, the bound 1e-10 allows the usual factor of growth (common practice).
+        let h_max = explicit.iter().fold(0.0f64, |m, h| m.max(*h));
+        let worst = from_r
+            .iter()
+            .zip(&explicit)
+            .map(|(a, b)| (a - b).abs())
+            .fold(0.0f64, f64::max);
+        assert!(worst <= 1e-10 * h_max, "worst {worst:e}, h_max {h_max:e}");
+        // Σh = p (trace of the projection).
+        let trace: f64 = from_r.iter().sum();
+        assert!((trace - 4.0).abs() < 1e-9, "{trace}");
+    }
+
+    #[test]
+    fn influence_of_columns_equals_influence_of_the_weighted_matrix_below_the_switch() {
+        let n = 200;
+        let (columns, w) = decay_design(n);
+        let cols: Vec<&[f64]> = columns.iter().map(Vec::as_slice).collect();
+        let a = DMatrix::from_fn(n, cols.len(), |i, j| cols[j][i] * w[i].sqrt());
+        let e: Vec<f64> = (0..n)
+            .map(|i| ((i * 37 % 11) as f64 - 5.0) * 0.01)
+            .collect();
+        let by_matrix = influence(&a, &e, Some(&w), 0.03).unwrap();
+        let by_columns = influence_of_columns(&cols, &e, Some(&w), 0.03).unwrap();
+        assert_eq!(by_matrix, by_columns);
+    }
+
+    #[test]
+    fn a_non_finite_entry_is_named_by_its_column_major_index_on_both_paths() {
+        for n in [100, LEVERAGE_FROM_R_FROM] {
+            let (mut columns, w) = decay_design(n);
+            columns[2][7] = f64::NAN;
+            columns[3][3] = f64::INFINITY;
+            let cols: Vec<&[f64]> = columns.iter().map(Vec::as_slice).collect();
+            let err = leverage_of_columns(&cols, Some(&w)).unwrap_err();
+            assert!(
+                matches!(err, StatsError::NonFinite { index, .. } if index == 2 * n + 7),
+                "{n}: {err:?}"
+            );
+        }
+    }
+
+    #[test]
+    fn dependent_columns_are_rank_deficient_on_the_r_path_too() {
+        let (mut columns, _) = decay_design(LEVERAGE_FROM_R_FROM);
+        columns[3] = columns[1].iter().map(|t| -2.5 * t).collect();
+        let cols: Vec<&[f64]> = columns.iter().map(Vec::as_slice).collect();
+        assert!(matches!(
+            leverage_of_columns(&cols, None),
+            Err(StatsError::RankDeficient {
+                rank: 3,
+                columns: 4
+            })
+        ));
     }
 
     #[test]
