@@ -66,6 +66,7 @@ pub mod source;
 pub mod stats;
 #[cfg_attr(not(test), deny(clippy::indexing_slicing))]
 pub mod validate;
+mod vector;
 #[cfg_attr(not(test), deny(clippy::indexing_slicing))]
 pub mod verify;
 

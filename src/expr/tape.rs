@@ -454,11 +454,11 @@ impl MultiTape {
     }
 
     /// [`MultiTape::run`] on one thread (shapes already checked). On x86-64 processors with
-    /// AVX2 the same code is compiled a second time for AVX2 and chosen at run time: the
+    /// AVX2 the loop runs as compiled for AVX2 ([`crate::vector::dispatch`]): the
     /// operations are elementwise IEEE arithmetic (and [`super::exp`], written in such
     /// arithmetic), which give the same bits at any vector width, and fused multiply-add is
     /// not enabled, so the results do not depend on the machine (tested below against the
-    /// portable build of the same loop).
+    /// baseline build of the same loop).
     fn run_rows(
         &self,
         scratch: &mut TapeScratch,
@@ -467,38 +467,10 @@ impl MultiTape {
         outs: &mut [&mut [f64]],
         checked: bool,
     ) -> Result<(), EvalError> {
-        #[cfg(target_arch = "x86_64")]
-        if std::arch::is_x86_feature_detected!("avx2") {
-            // SAFETY: the processor supports AVX2, checked on the line above.
-            return unsafe { self.run_rows_avx2(scratch, columns, params, outs, checked) };
-        }
-        self.run_rows_portable(scratch, columns, params, outs, checked)
-    }
-
-    /// [`MultiTape::run_rows`] for processors with AVX2 (the caller checks).
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    fn run_rows_avx2(
-        &self,
-        scratch: &mut TapeScratch,
-        columns: &[&[f64]],
-        params: &[f64],
-        outs: &mut [&mut [f64]],
-        checked: bool,
-    ) -> Result<(), EvalError> {
-        self.run_rows_body(scratch, columns, params, outs, checked)
-    }
-
-    /// [`MultiTape::run_rows`] for any processor of the target.
-    fn run_rows_portable(
-        &self,
-        scratch: &mut TapeScratch,
-        columns: &[&[f64]],
-        params: &[f64],
-        outs: &mut [&mut [f64]],
-        checked: bool,
-    ) -> Result<(), EvalError> {
-        self.run_rows_body(scratch, columns, params, outs, checked)
+        crate::vector::dispatch(
+            #[inline(always)]
+            || self.run_rows_body(scratch, columns, params, outs, checked),
+        )
     }
 
     #[inline(always)]
@@ -1095,12 +1067,15 @@ mod tests {
             let mut outs = vec![vec![0.0; rows]; exprs.len()];
             let mut views: Vec<&mut [f64]> = outs.iter_mut().map(|o| o.as_mut_slice()).collect();
             let mut scratch = TapeScratch::default();
-            let run = if portable {
-                MultiTape::run_rows_portable
+            let cols: [&[f64]; 2] = [&x, &y];
+            let result = if portable {
+                crate::vector::run_baseline(|| {
+                    tape.run_rows_body(&mut scratch, &cols, &params, &mut views, false)
+                })
             } else {
-                MultiTape::run_rows
+                tape.run_rows(&mut scratch, &cols, &params, &mut views, false)
             };
-            run(&tape, &mut scratch, &[&x, &y], &params, &mut views, false).expect("unchecked run");
+            result.expect("unchecked run");
             outs
         };
         let (a, b) = (eval(true), eval(false));

@@ -8,36 +8,7 @@
 
 use nalgebra::DMatrix;
 
-/// Runs `f` compiled for AVX2 when the processor has it, and as compiled for the baseline
-/// target otherwise, behind a call the optimizer does not inline (it keeps each kernel's
-/// lane sums apart from the code that combines them, which it otherwise vectorizes badly).
-///
-/// The two builds give the same bits: Rust never contracts a·b + c into a fused multiply-add
-/// (and FMA is not enabled), and never reorders a floating-point sum, so wider registers only
-/// change how many of the independent lane operations run at once. Every kernel that sums
-/// writes its sums out in lanes (e.g. the four partial sums of [`dot`]), combined afterwards
-/// in one fixed order. See DEVELOPERS.md, "Vector kernels".
-///
-/// `len` is the length of the vectors `f` works on: below [`VECTOR_MIN_LEN`] it runs inline,
-/// as compiled for the baseline (the call and the longer loop set-up would cost more than the
-/// wider registers save).
-#[inline(always)]
-pub(crate) fn vectorized<R>(len: usize, f: impl FnOnce() -> R) -> R {
-    if len < VECTOR_MIN_LEN {
-        return f();
-    }
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx2") {
-        // SAFETY: the processor supports AVX2 (checked on the line above), the one
-        // requirement for calling a function compiled with that feature.
-        return unsafe { run_avx2(f) };
-    }
-    run_baseline(f)
-}
-
-/// Shortest vector for which [`vectorized`] calls its kernel (not tuned: on NIST DanWood,
-/// 6 rows, and Misra1a, 14 rows, callgrind and the clock showed the call slower than inline).
-const VECTOR_MIN_LEN: usize = 32;
+use crate::vector::vectorized;
 
 /// Lane sums as computed, behind an optimization barrier: without it the optimizer
 /// vectorizes the combination (s₀ + s₁) + (s₂ + s₃) and lays out the loop for that, two lanes
@@ -45,18 +16,6 @@ const VECTOR_MIN_LEN: usize = 32;
 #[inline(always)]
 fn lanes<T>(sums: T) -> T {
     std::hint::black_box(sums)
-}
-
-#[inline(never)]
-fn run_baseline<R>(f: impl FnOnce() -> R) -> R {
-    f()
-}
-
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-#[inline(never)]
-fn run_avx2<R>(f: impl FnOnce() -> R) -> R {
-    f()
 }
 
 /// Euclidean norm of `x`. One pass of plain sums of squares; when that overflows or falls
@@ -905,6 +864,7 @@ mod tests {
 
     #[test]
     fn vector_kernels_give_the_same_bits_with_and_without_avx2() {
+        use crate::vector::{run_avx2, run_baseline};
         // Dot products of every length 0..80 and Householder QRs of 40 × 3 to 80 × 3
         // matrices (values from the fixed linear congruential sequence), computed by the
         // baseline build and, where the processor has AVX2, by the AVX2 build.

@@ -914,7 +914,7 @@ fn second_directional(w: &mut Work, n: usize, p: usize) -> bool {
     let (ft, f, v) = (&w.f_trial[..n], &w.f[..n], &w.v[..p]);
     let sqrt_w = (!w.unit).then_some(&w.sqrt_w[..n]);
     let rhs = &mut w.rhs[..n];
-    dense::vectorized(
+    crate::vector::vectorized(
         n,
         #[inline(always)]
         || {
@@ -1009,14 +1009,14 @@ fn trial_sums(y: &[f64], w: &mut Work) -> Option<TrialSums> {
     let (f, ft, e) = (&w.f[..n], &w.f_trial[..n], &w.e[..n]);
     let et = &mut w.e_trial[..n];
     let (finite, ssr, actual, noise) = if w.unit {
-        dense::vectorized(
+        crate::vector::vectorized(
             n,
             #[inline(always)]
             || trial_rows::<true>(y, f, ft, e, e, et),
         )
     } else {
         let sw = &w.sqrt_w[..n];
-        dense::vectorized(
+        crate::vector::vectorized(
             n,
             #[inline(always)]
             || trial_rows::<false>(y, f, ft, sw, e, et),
@@ -1058,7 +1058,7 @@ fn trial_rows<const UNIT: bool>(
 /// Whether every value is finite: a fold without early exit, which the compiler vectorizes
 /// (these checks run over n or n·p values on every trial).
 fn all_finite(xs: &[f64]) -> bool {
-    dense::vectorized(
+    crate::vector::vectorized(
         xs.len(),
         #[inline(always)]
         || xs.iter().fold(true, |ok, v| ok & (v.abs() < f64::INFINITY)),
