@@ -271,28 +271,7 @@ fn streaming_qr_kernel(
             }
         }
         work[p * ld + p..p * ld + m].copy_from_slice(&b[lo..lo + len]);
-        for j in 0..p {
-            let (left, right) = work.split_at_mut((j + 1) * ld);
-            let x = &mut left[j * ld + j..j * ld + m];
-            let alpha = x[0];
-            let tail_norm = norm2_kernel(&x[1..]);
-            if tail_norm == 0.0 {
-                continue;
-            }
-            let beta = -alpha.signum() * alpha.hypot(tail_norm);
-            let tau = (beta - alpha) / beta;
-            let inv = 1.0 / (alpha - beta);
-            for v in &mut x[1..] {
-                *v *= inv;
-            }
-            x[0] = beta;
-            let v = &x[1..];
-            for k in 0..(p - j) {
-                reflect(tau, v, &mut right[k * ld + j..k * ld + m]);
-            }
-            // The rows below the diagonal start the next block at zero.
-            x[1..].fill(0.0);
-        }
+        reduce_stacked(work, ld, p, p + 1, m);
         lo += len;
     }
     for j in 0..p {
@@ -301,6 +280,38 @@ fn streaming_qr_kernel(
         }
     }
     z[..p].copy_from_slice(&work[p * ld..p * ld + p]);
+}
+
+/// One step of the blocked QR: the column-major block in `work` (leading dimension `ld`,
+/// `ncols` ≥ p columns; rows 0..p the triangle so far, rows p..m the next rows) is reduced by
+/// Householder reflections of its first p columns (β = −sign(x₀)·‖x‖, as in
+/// [`householder_qr_in_place`]), each applied to the columns after it. Rows 0..p then hold
+/// the new triangle (and, in the columns past p, the first p entries of their reflection);
+/// rows p..m are zero again, ready for the next block.
+#[inline(always)]
+pub(crate) fn reduce_stacked(work: &mut [f64], ld: usize, p: usize, ncols: usize, m: usize) {
+    for j in 0..p {
+        let (left, right) = work.split_at_mut((j + 1) * ld);
+        let x = &mut left[j * ld + j..j * ld + m];
+        let alpha = x[0];
+        let tail_norm = norm2_kernel(&x[1..]);
+        if tail_norm == 0.0 {
+            continue;
+        }
+        let beta = -alpha.signum() * alpha.hypot(tail_norm);
+        let tau = (beta - alpha) / beta;
+        let inv = 1.0 / (alpha - beta);
+        for v in &mut x[1..] {
+            *v *= inv;
+        }
+        x[0] = beta;
+        let v = &x[1..];
+        for k in 0..(ncols - j - 1) {
+            reflect(tau, v, &mut right[k * ld + j..k * ld + m]);
+        }
+        // The rows below the diagonal start the next block at zero.
+        x[1..].fill(0.0);
+    }
 }
 
 /// y ← y − α·x over the common length.

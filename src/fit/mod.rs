@@ -13,7 +13,7 @@
 #![allow(clippy::needless_range_loop)]
 
 pub mod covariance;
-mod dense;
+pub(crate) mod dense;
 pub mod linear;
 pub mod lm;
 pub mod strd;

@@ -219,48 +219,27 @@ fn leverage_from_r(columns: &[&[f64]], weights: Option<&[f64]>) -> Result<Vec<f6
     let ld = p + R_BLOCK;
     // Column-major (p + block) × p: rows 0..p hold R, rows p.. the next block.
     let mut work = vec![0.0f64; ld * p];
-    let mut lo = 0;
-    while lo < n {
-        let len = R_BLOCK.min(n - lo);
-        let m = p + len;
-        fill_scale(&mut scale, lo, len);
-        for (j, c) in columns.iter().enumerate() {
-            let dest = &mut work[j * ld + p..j * ld + m];
-            for ((d, v), s) in dest.iter_mut().zip(&c[lo..lo + len]).zip(&scale) {
-                *d = v * s * inv_norm[j];
-            }
-        }
-        for j in 0..p {
-            let (left, right) = work.split_at_mut((j + 1) * ld);
-            let x = &mut left[j * ld + j..j * ld + m];
-            let alpha = x[0];
-            let tail_norm = x[1..].iter().map(|v| v * v).sum::<f64>().sqrt();
-            if tail_norm == 0.0 {
-                continue;
-            }
-            // Reflector mapping x to (β, 0, …, 0), β = −sign(x₀)·‖x‖ against
-            // cancellation (Golub & Van Loan §5.1.2, from memory); v = (1, x[1..]/(x₀ − β)).
-            let beta = -alpha.signum() * alpha.hypot(tail_norm);
-            let tau = (beta - alpha) / beta;
-            let inv = 1.0 / (alpha - beta);
-            for v in &mut x[1..] {
-                *v *= inv;
-            }
-            x[0] = beta;
-            let v = &x[1..];
-            for k in 0..(p - j - 1) {
-                let ck = &mut right[k * ld + j..k * ld + m];
-                let t = tau * (ck[0] + v.iter().zip(&ck[1..]).map(|(a, b)| a * b).sum::<f64>());
-                ck[0] -= t;
-                for (c, vi) in ck[1..].iter_mut().zip(v) {
-                    *c -= t * vi;
+    // The block steps of the solver's streaming QR (same kernel, AVX2 when available).
+    crate::vector::vectorized(
+        n,
+        #[inline(always)]
+        || {
+            let mut lo = 0;
+            while lo < n {
+                let len = R_BLOCK.min(n - lo);
+                let m = p + len;
+                fill_scale(&mut scale, lo, len);
+                for (j, c) in columns.iter().enumerate() {
+                    let dest = &mut work[j * ld + p..j * ld + m];
+                    for ((d, v), s) in dest.iter_mut().zip(&c[lo..lo + len]).zip(&scale) {
+                        *d = v * s * inv_norm[j];
+                    }
                 }
+                crate::fit::dense::reduce_stacked(&mut work, ld, p, p, m);
+                lo += len;
             }
-            // The rows below the diagonal start the next block at zero.
-            x[1..].fill(0.0);
-        }
-        lo += len;
-    }
+        },
+    );
     // R: column k of the upper triangle is work[k·ld .. k·ld + k + 1].
     let r_col = |k: usize| &work[k * ld..k * ld + k + 1];
     let diag_max = (0..p).fold(0.0f64, |m, k| m.max(r_col(k)[k].abs()));
