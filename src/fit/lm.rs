@@ -687,7 +687,6 @@ pub fn fit<M: Model + ?Sized>(
                     model,
                     obs,
                     &mut w,
-                    lambda,
                     &mut nfev,
                     n >= PROJECTED_RHS_FROM || streaming,
                     streaming,
@@ -843,7 +842,6 @@ fn acceleration<M: Model + ?Sized>(
     model: &M,
     obs: &Observations<'_>,
     w: &mut Work,
-    lambda: f64,
     nfev: &mut usize,
     large: bool,
     streaming: bool,
@@ -874,7 +872,9 @@ fn acceleration<M: Model + ?Sized>(
         }
         dense::apply_qt(&w.qr, &w.tau, &mut w.rhs);
     }
-    if !dense::damped_solve(&w.qr, &w.diag, lambda, &w.rhs, &mut w.damped, &mut w.a) {
+    // Same R, D and λ as the velocity's solve just before: its rotations are replayed on the
+    // new right-hand side (the same bits as a fresh solve, for O(p²) work).
+    if !dense::damped_resolve(&mut w.damped, &w.rhs, &mut w.a) {
         w.a.fill(0.0);
         return true;
     }
