@@ -22,6 +22,7 @@ use rayon::prelude::*;
 use super::ast::{AddOp, CmpOp, Expr, ExprKind, Func, LogicOp, MulOp};
 use super::error::{EvalError, ExprError};
 use super::recursive::eval_checked;
+use crate::vector::all_finite;
 
 /// Rows per chunk: 2,048 rows × 8 bytes = 16 KiB per register.
 pub const CHUNK: usize = 2048;
@@ -630,26 +631,6 @@ fn parallel_parts(rows: usize) -> usize {
     (rayon::current_num_threads() * 4).min(rows / (PARALLEL_FROM / 2))
 }
 
-/// Whether every value is finite: x·0 is ±0 for finite x and NaN for ±∞ and NaN, so the sum
-/// of the x·0 is zero exactly when all are finite. Summed in eight independent lanes (the
-/// order of a sum of zeros and NaNs does not matter), which the compiler keeps in vector
-/// registers; a boolean fold was not vectorized and cost more than the arithmetic it checked.
-#[inline(always)]
-fn all_finite(xs: &[f64]) -> bool {
-    let mut lanes = [0.0_f64; 8];
-    let chunks = xs.chunks_exact(8);
-    let mut rest = 0.0;
-    for &x in chunks.remainder() {
-        rest += x * 0.0;
-    }
-    for c in chunks {
-        for (l, &x) in lanes.iter_mut().zip(c) {
-            *l += x * 0.0;
-        }
-    }
-    lanes.iter().sum::<f64>() + rest == 0.0
-}
-
 #[derive(Clone, Copy)]
 enum V<'a> {
     S(&'a [f64]),
@@ -1001,28 +982,6 @@ mod tests {
             assert_eq!(outs[3][i], 3.0);
             assert_eq!(outs[4][i].to_bits(), (e - 1.5 * e).to_bits());
         }
-    }
-
-    #[test]
-    fn finiteness_check_finds_every_non_finite_position() {
-        for len in [0, 1, 7, 8, 9, 16, 23, 64] {
-            let clean: Vec<f64> = (0..len).map(|i| i as f64 * -1.5e300 - 0.0).collect();
-            assert!(all_finite(&clean), "len {len}");
-            for pos in 0..len {
-                for bad in [f64::INFINITY, f64::NEG_INFINITY, f64::NAN] {
-                    let mut v = clean.clone();
-                    v[pos] = bad;
-                    assert!(!all_finite(&v), "{bad} at {pos} of {len}");
-                }
-            }
-        }
-        assert!(all_finite(&[
-            f64::MAX,
-            -f64::MAX,
-            f64::MIN_POSITIVE,
-            5e-324,
-            -0.0
-        ]));
     }
 
     /// The run-time choice of the AVX2 build and the portable build give the same bits, for

@@ -1055,13 +1055,13 @@ fn trial_rows<const UNIT: bool>(
     (finite, ssr, actual, noise)
 }
 
-/// Whether every value is finite: a fold without early exit, which the compiler vectorizes
-/// (these checks run over n or n·p values on every trial).
+/// Whether every value is finite ([`crate::vector::all_finite`], in the AVX2 build when the
+/// processor has it; these checks run over n·p values on every trial).
 fn all_finite(xs: &[f64]) -> bool {
     crate::vector::vectorized(
         xs.len(),
         #[inline(always)]
-        || xs.iter().fold(true, |ok, v| ok & (v.abs() < f64::INFINITY)),
+        || crate::vector::all_finite(xs),
     )
 }
 
