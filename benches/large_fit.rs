@@ -8,7 +8,9 @@
 //!
 //! Run `python3 scripts/bench/make_data.py large`, then `cargo bench --bench large_fit` (or
 //! give another recipe as the first argument). Prints median, min and max of several runs
-//! (7, or `FITWRIGHT_BENCH_RUNS`) for each phase and for load + fit.
+//! (7, or `FITWRIGHT_BENCH_RUNS`) for each phase and for load + fit, in wall time and in the
+//! process's CPU time (user + system over all threads, `getrusage`): on a shared machine the
+//! CPU time moves far less than the wall time.
 
 use std::hint::black_box;
 use std::path::PathBuf;
@@ -16,6 +18,15 @@ use std::time::{Duration, Instant};
 
 use fitwright::estimate::{self, TapeModel};
 use fitwright::fit::covariance::{self, UncertaintySettings};
+
+/// User + system CPU time of the whole process so far (every thread).
+fn cpu_time() -> Duration {
+    // SAFETY: getrusage writes one plain-data struct that we own.
+    let mut u: libc::rusage = unsafe { std::mem::zeroed() };
+    unsafe { libc::getrusage(libc::RUSAGE_SELF, &mut u) };
+    let tv = |t: libc::timeval| Duration::new(t.tv_sec as u64, t.tv_usec as u32 * 1000);
+    tv(u.ru_utime) + tv(u.ru_stime)
+}
 
 fn main() {
     let path = std::env::args()
@@ -45,9 +56,10 @@ fn main() {
         .unwrap_or(7)
         .max(1);
     let (mut loads, mut fits, mut totals) = (Vec::new(), Vec::new(), Vec::new());
+    let (mut load_cpu, mut fit_cpu) = (Vec::new(), Vec::new());
     let mut last = None;
     for _ in 0..runs {
-        let t0 = Instant::now();
+        let (t0, c0) = (Instant::now(), cpu_time());
         let prep = match fitwright::model::prepare(&recipe) {
             Ok(p) => p,
             Err(e) => {
@@ -55,7 +67,7 @@ fn main() {
                 std::process::exit(1);
             }
         };
-        let t1 = Instant::now();
+        let (t1, c1) = (Instant::now(), cpu_time());
         let describe = |row: usize| prep.data.describe_row(row);
         let names = prep.model.free_names();
         let model = TapeModel::new(
@@ -79,7 +91,9 @@ fn main() {
             UncertaintySettings::default(),
         )
         .expect("the covariance exists");
-        let t2 = Instant::now();
+        let (t2, c2) = (Instant::now(), cpu_time());
+        load_cpu.push(c1 - c0);
+        fit_cpu.push(c2 - c1);
         loads.push(t1 - t0);
         fits.push(t2 - t1);
         totals.push(t2 - t0);
@@ -104,6 +118,8 @@ fn main() {
     line("load", &mut loads);
     line("fit", &mut fits);
     line("load + fit", &mut totals);
+    line("load CPU", &mut load_cpu);
+    line("fit CPU", &mut fit_cpu);
     let shown: Vec<String> = params
         .iter()
         .zip(&u.std_errors)

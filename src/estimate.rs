@@ -95,6 +95,12 @@ impl LmModel for TapeModel<'_> {
         self.p
     }
 
+    /// The tape evaluates with its checks on (`eval_in`): a non-finite value anywhere is an
+    /// error that names the row and sub-expression, never an output.
+    fn finite_or_error(&self) -> bool {
+        true
+    }
+
     fn eval(&self, params: &[f64], f_out: &mut [f64]) -> std::result::Result<(), ModelError> {
         self.value_tape
             .eval_in(

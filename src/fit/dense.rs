@@ -69,6 +69,12 @@ fn dot_kernel(a: &[f64], b: &[f64]) -> f64 {
     (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
 }
 
+/// [`dot`]'s kernel for use inside other vector kernels of the fit module.
+#[inline(always)]
+pub(crate) fn dot_slices(a: &[f64], b: &[f64]) -> f64 {
+    dot_kernel(a, b)
+}
+
 /// The four lane sums of [`dot`] over the whole blocks of four.
 #[inline(always)]
 fn dot_blocks(a: &[f64], b: &[f64]) -> [f64; 4] {
@@ -101,8 +107,9 @@ pub(crate) fn weighted_column(
     (g, column_norm(sum, c, s))
 }
 
-/// qᵀe and ‖q‖ for q = c ⊙ s without writing q (the streaming QR weights the columns as it
-/// reads them); the same bits as [`weighted_column`].
+/// qᵀe and ‖q‖ for q = c ⊙ s without writing q; the same bits as [`weighted_column`] (the
+/// tests' reference for the streaming QR's column sums).
+#[cfg(test)]
 pub(crate) fn weighted_column_sums(c: &[f64], s: Option<&[f64]>, e: &[f64]) -> (f64, f64) {
     let (g, sum) = match s {
         Some(s) => weighted_sums::<false>(c, s, e, None),
@@ -217,47 +224,117 @@ fn weighted_block<const UNIT: bool>(
 const QR_BLOCK: usize = 256;
 
 /// R and z = (Qᵀb)[0..p] of the QR factorization of A = J ⊙ √w (J column-major n × p in
-/// `jac`, row i scaled by `s[i]`, columns with `zero[j]` taken as 0), without storing A or Q:
-/// the rows are taken in blocks, each stacked under the current [R | z] and reduced by
-/// Householder reflections (as in [`householder_qr_in_place`]) to a new [R | z]. This is the
-/// sequential TSQR of Demmel, Grigori, Hoemmen & Langou, SIAM J. Sci. Comput. 34(1), 2012:
-/// backward stable like one Householder QR of [A | b], whose R and first p entries of Qᵀb it
-/// gives up to the signs of R's rows (each row's sign carried by z's entry). R goes to the
-/// upper triangle of the p × p `r` (zeros below), z to `z[..p]`.
+/// `jac`, row i scaled by `s[i]`, columns with `zero[j]` taken as 0), without storing A or Q.
+///
+/// Parallel TSQR (Demmel, Grigori, Hoemmen & Langou, "Communication-optimal parallel and
+/// sequential QR and LU factorizations", SIAM J. Sci. Comput. 34(1), 2012) over the fixed
+/// blocks of [`super::rows`]: each block's rows are taken [`QR_BLOCK`] at a time, stacked
+/// under the block's [R | z] so far and reduced by Householder reflections (as in
+/// [`householder_qr_in_place`]); the blocks' triangles are then stacked and reduced the same
+/// way, in block order. Backward stable like one Householder QR of [A | b], whose R and first
+/// p entries of Qᵀb it gives up to the signs of R's rows (each row's sign carried by z's
+/// entry); the same bits with any number of threads. R goes to the upper triangle of the
+/// p × p `r` (zeros below), z to `z[..p]`.
+///
+/// With `sums`, the same pass also gives each column's qⱼᵀb and Σᵢ qⱼᵢ² for qⱼ = column j
+/// of A (zero columns included, as unweighted J): into `sums[j] = (qⱼᵀb, Σ qⱼᵢ²)`, each the
+/// block sums of [`weighted_column_sums`]'s four-lane kernel added in block order.
+/// `unit`: every s[i] is 1, and the sums skip the multiplications (1·x = x exactly).
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn streaming_qr(
     jac: &[f64],
     s: &[f64],
+    unit: bool,
     zero: &[bool],
     b: &[f64],
-    work: &mut Vec<f64>,
-    r: &mut DMatrix<f64>,
-    z: &mut [f64],
-) {
-    vectorized(
-        b.len(),
-        #[inline(always)]
-        || streaming_qr_kernel(jac, s, zero, b, work, r, z),
-    );
-}
-
-#[inline(always)]
-fn streaming_qr_kernel(
-    jac: &[f64],
-    s: &[f64],
-    zero: &[bool],
-    b: &[f64],
-    work: &mut Vec<f64>,
+    sums: Option<&mut [(f64, f64)]>,
     r: &mut DMatrix<f64>,
     z: &mut [f64],
 ) {
     let n = b.len().min(s.len());
     let p = r.ncols();
+    let want_sums = sums.is_some();
+    let parts = super::rows::map(n, |rows| {
+        vectorized(
+            rows.len(),
+            #[inline(always)]
+            || block_triangle(jac, n, rows, s, unit, zero, b, want_sums, p),
+        )
+    });
+    if let Some(sums) = sums {
+        sums[..p].fill((0.0, 0.0));
+        for part in &parts {
+            for (acc, add) in sums.iter_mut().zip(&part.sums) {
+                acc.0 += add.0;
+                acc.1 += add.1;
+            }
+        }
+    }
+    // The blocks' triangles, stacked two at a time: rows 0..p the running [R | z], rows
+    // p..2p the next block's.
+    let ld = 2 * p;
+    let mut work = vec![0.0; ld * (p + 1)];
+    for (k, part) in parts.iter().enumerate() {
+        let base = if k == 0 { 0 } else { p };
+        for j in 0..=p {
+            work[j * ld + base..j * ld + base + p].copy_from_slice(&part.tri[j * p..(j + 1) * p]);
+        }
+        if k > 0 {
+            vectorized(
+                ld,
+                #[inline(always)]
+                || reduce_stacked(&mut work, ld, p, p + 1, ld),
+            );
+        }
+    }
+    for j in 0..p {
+        for i in 0..p {
+            r[(i, j)] = if i <= j { work[j * ld + i] } else { 0.0 };
+        }
+    }
+    z[..p].copy_from_slice(&work[p * ld..p * ld + p]);
+}
+
+/// One block's share of [`streaming_qr`].
+struct BlockTriangle {
+    /// [R | z] of the block's rows, p × (p + 1) column-major (leading dimension p).
+    tri: Vec<f64>,
+    /// (qⱼᵀb, Σ qⱼᵢ²) over the block's rows, when asked for.
+    sums: Vec<(f64, f64)>,
+}
+
+/// [R | z] of the rows `rows` of A = J ⊙ √w and b (sequential TSQR over [`QR_BLOCK`]-row
+/// pieces), and with `want_sums` the column sums of [`streaming_qr`] over those rows.
+#[allow(clippy::too_many_arguments)]
+#[inline(always)]
+fn block_triangle(
+    jac: &[f64],
+    n: usize,
+    rows: std::ops::Range<usize>,
+    s: &[f64],
+    unit: bool,
+    zero: &[bool],
+    b: &[f64],
+    want_sums: bool,
+    p: usize,
+) -> BlockTriangle {
+    let mut sums = Vec::new();
+    if want_sums {
+        let (sr, br) = (&s[rows.clone()], &b[rows.clone()]);
+        for j in 0..p {
+            let c = &jac[j * n + rows.start..j * n + rows.end];
+            sums.push(if unit {
+                weighted_sums::<true>(c, c, br, None)
+            } else {
+                weighted_sums::<false>(c, sr, br, None)
+            });
+        }
+    }
     let ld = p + QR_BLOCK;
-    work.clear();
-    work.resize(ld * (p + 1), 0.0);
-    let mut lo = 0;
-    while lo < n {
-        let len = QR_BLOCK.min(n - lo);
+    let mut work = vec![0.0; ld * (p + 1)];
+    let mut lo = rows.start;
+    while lo < rows.end {
+        let len = QR_BLOCK.min(rows.end - lo);
         let m = p + len;
         for j in 0..p {
             let dest = &mut work[j * ld + p..j * ld + m];
@@ -271,15 +348,23 @@ fn streaming_qr_kernel(
             }
         }
         work[p * ld + p..p * ld + m].copy_from_slice(&b[lo..lo + len]);
-        reduce_stacked(work, ld, p, p + 1, m);
+        reduce_stacked(&mut work, ld, p, p + 1, m);
         lo += len;
     }
-    for j in 0..p {
+    let mut tri = vec![0.0; p * (p + 1)];
+    for j in 0..=p {
         for i in 0..p {
-            r[(i, j)] = if i <= j { work[j * ld + i] } else { 0.0 };
+            // Below the diagonal of R the block's reduction leaves zeros.
+            tri[j * p + i] = work[j * ld + i];
         }
     }
-    z[..p].copy_from_slice(&work[p * ld..p * ld + p]);
+    BlockTriangle { tri, sums }
+}
+
+/// ‖q‖ for the weighted column q = c ⊙ s (`s` None for unit weights) from its plain sum of
+/// squares `sum`, as [`weighted_column_sums`] gives it.
+pub(crate) fn norm_from_sum(sum: f64, c: &[f64], s: Option<&[f64]>) -> f64 {
+    column_norm(sum, c, s)
 }
 
 /// One step of the blocked QR: the column-major block in `work` (leading dimension `ld`,
@@ -815,15 +900,68 @@ mod tests {
     }
 
     #[test]
+    fn streaming_qr_sums_are_the_column_sums_over_all_blocks() {
+        // Over three blocks of fit::rows, the column sums that come with the streaming QR are
+        // those of weighted_column_sums over all the rows, up to the order of the additions
+        // (relative 1e-13; common practice for sums of 16,000 terms of one sign or of mixed
+        // signs with a dominant total). Values from the fixed sequence above.
+        let mut uniform = lcg(11);
+        let mut next = || uniform().0 - 0.25;
+        let (n, p) = (2 * super::super::rows::BLOCK + 3, 3);
+        let jac: Vec<f64> = (0..n * p).map(|_| next()).collect();
+        let sw: Vec<f64> = (0..n).map(|_| next() + 1.0).collect();
+        let b: Vec<f64> = (0..n).map(|_| next()).collect();
+        for unit in [false, true] {
+            let ones = vec![1.0; n];
+            let s = if unit { &ones } else { &sw };
+            let mut sums = vec![(0.0, 0.0); p];
+            let (mut r, mut z) = (DMatrix::zeros(p, p), vec![0.0; p]);
+            streaming_qr(
+                &jac,
+                s,
+                unit,
+                &[false; 3],
+                &b,
+                Some(&mut sums),
+                &mut r,
+                &mut z,
+            );
+            for j in 0..p {
+                let c = &jac[j * n..(j + 1) * n];
+                let (g, norm) = weighted_column_sums(c, (!unit).then_some(&sw[..]), &b);
+                let close = |a: f64, b: f64| (a - b).abs() <= 1e-13 * b.abs();
+                assert!(
+                    close(sums[j].0, g),
+                    "unit {unit} column {j}: {} vs {g}",
+                    sums[j].0
+                );
+                assert!(
+                    close(
+                        norm_from_sum(sums[j].1, c, (!unit).then_some(&sw[..])),
+                        norm
+                    ),
+                    "column {j}"
+                );
+                // ‖R e_j‖ = ‖A e_j‖ (Q orthogonal).
+                let rn = (0..p).map(|i| r[(i, j)] * r[(i, j)]).sum::<f64>().sqrt();
+                assert!(
+                    (rn - norm).abs() <= 1e-12 * norm,
+                    "column {j}: ‖R e_j‖ {rn} vs {norm}"
+                );
+            }
+        }
+    }
+
+    #[test]
     fn streaming_qr_gives_householders_r_and_qtb_up_to_row_signs() {
-        // Matrices of 1 to 4 columns over 1, 255, 256, 257 and 1,000 rows (block edges),
-        // values from a fixed linear congruential sequence (Knuth's MMIX constants), one
+        // Matrices of 1 to 4 columns over 1, 255, 256, 257, 1,000 and 2·8,192 + 3 rows (edges
+        // of the 256-row pieces, and three parallel blocks of fit::rows), values from a fixed linear congruential sequence (Knuth's MMIX constants), one
         // column zeroed; compared with householder_qr_in_place + apply_qt on the same
         // weighted matrix.
         let mut uniform = lcg(7);
         let mut next = || uniform().0 - 0.5;
         for p in 1..=4 {
-            for n in [p, 255, 256, 257, 1000] {
+            for n in [p, 255, 256, 257, 1000, 2 * super::super::rows::BLOCK + 3] {
                 if n < p {
                     continue;
                 }
@@ -848,8 +986,7 @@ mod tests {
                 apply_qt(&a, &tau, &mut qtb);
                 let mut r = DMatrix::zeros(p, p);
                 let mut z = vec![0.0; p];
-                let mut work = Vec::new();
-                streaming_qr(&jac, &sw, &zero, &b, &mut work, &mut r, &mut z);
+                streaming_qr(&jac, &sw, false, &zero, &b, None, &mut r, &mut z);
                 // R_s and R_h both satisfy RᵀR = AᵀA and Rᵀz = Aᵀb (R itself is unique only
                 // up to row signs, and not at all where a column is zero), which is all the
                 // damped solve and the predicted reduction use.

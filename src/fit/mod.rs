@@ -16,4 +16,5 @@ pub mod covariance;
 pub(crate) mod dense;
 pub mod linear;
 pub mod lm;
+pub(crate) mod rows;
 pub mod strd;
