@@ -13,8 +13,10 @@ kernel threadpoolctl reports.)
 (a) large: `fitwright run` on the 1,000,000-row CSV of make_data.py (full run: load, fit,
     diagnostics, plots, HTML/Markdown/JSON reports) against pandas.read_csv +
     scipy.optimize.curve_fit (load + fit alone, default method "lm", numerical Jacobian), each
-    in its own process under /usr/bin/time -v for the peak memory. Agreement: the relative
-    difference of each parameter between the two tools.
+    in its own process under /usr/bin/time -v for the peak memory; and, like for like,
+    fitwright's load + fit alone (`cargo bench --bench large_fit`: model::prepare, then the
+    tape, Levenberg–Marquardt and the covariance, as curve_fit returns one) in a fresh process.
+    Agreement: the relative difference of each parameter between the two tools.
 (c) nist: the 54 NIST StRD nonlinear fits (27 problems x 2 starts). fitwright's per-fit times
     and parameters come from `cargo bench --bench nist_compare`; scipy curve_fit (defaults) fits
     the same files from the same starts, timed the same way (median of repeated fits), one
@@ -82,14 +84,23 @@ def large(a):
         subprocess.run([sys.executable, os.path.join(ROOT, "scripts/bench/make_data.py"), "large",
                         "--rows", str(a.rows), "--out", data], check=True)
     ours, ours_cpu, ours_rss, ref, ref_load, ref_fit, ref_rss = [], [], [], [], [], [], []
+    alone, alone_load, alone_fit = [], [], []
+    phases = bench_binary("large_fit")
     params = ref_params = None
-    for _ in range(a.runs):  # interleaved, so that both see the same machine load
+    for _ in range(a.runs):  # interleaved, so that all three see the same machine load
         out = tempfile.mkdtemp(prefix="fw-cmp-")
         w, c, m, _ = timed([BIN, "run", recipe, "--no-history", "--quiet", "--out", out])
         ours.append(w), ours_cpu.append(c), ours_rss.append(m)
         result = glob.glob(os.path.join(out, "*", "*", "result.json"))[0]
         params = {p["name"]: p["value"] for p in json.load(open(result))["parameters"]}
         subprocess.run(["rm", "-rf", out], check=True)
+        # fitwright's load + fit alone (benches/large_fit.rs, one run in a fresh process).
+        text = subprocess.run([phases, recipe], cwd=ROOT, check=True, capture_output=True,
+                              text=True, env=dict(os.environ, FITWRIGHT_BENCH_RUNS="1")).stdout
+        ms = {k: float(re.search(rf"^{re.escape(k)} +median +([\d.]+) ms", text, re.M).group(1))
+              for k in ("load", "fit", "load + fit")}
+        alone.append(ms["load + fit"] / 1e3), alone_load.append(ms["load"] / 1e3)
+        alone_fit.append(ms["fit"] / 1e3)
         w, c, m, stdout = timed([sys.executable, __file__, "worker-large", csv])
         r = json.loads(stdout.strip().splitlines()[-1])
         ref.append(r["load"] + r["fit"]), ref_load.append(r["load"]), ref_fit.append(r["fit"])
@@ -104,8 +115,13 @@ def large(a):
           f"min {min(ref):.3f}, max {max(ref):.3f} (load {med(ref_load):.3f} s, fit "
           f"{med(ref_fit):.3f} s); peak {max(ref_rss):.0f} MB (whole process, interpreter "
           f"included)")
-    print(f"    ratio reference load+fit / fitwright full run (medians): {med(ref) / med(ours):.2f}x "
-          f"(target at least 2x)")
+    print(f"    fitwright load + fit alone (benches/large_fit.rs: model::prepare, then tape, "
+          f"Levenberg–Marquardt and covariance): median {med(alone):.3f} s, min {min(alone):.3f}, "
+          f"max {max(alone):.3f} (load {med(alone_load):.3f} s, fit {med(alone_fit):.3f} s)")
+    print(f"    ratio reference load+fit / fitwright full run (medians): {med(ref) / med(ours):.2f}x")
+    print(f"    ratio reference load+fit / fitwright load+fit (medians, like for like): "
+          f"{med(ref) / med(alone):.2f}x (target at least 2x); fit alone "
+          f"{med(ref_fit) / med(alone_fit):.2f}x, load alone {med(ref_load) / med(alone_load):.2f}x")
     print("    parameters:  fitwright                reference                relative difference")
     for k in "abc":
         d = abs(params[k] - ref_params[k]) / abs(ref_params[k])
