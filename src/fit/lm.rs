@@ -1424,6 +1424,34 @@ mod tests {
     }
 
     #[test]
+    fn a_large_fit_gives_the_same_bits_with_any_number_of_threads() {
+        // 60,000 rows with weights: the blocked parallel passes (fit::rows) on pools of 1, 2
+        // and 3 threads; every parameter, the SSR and the path must agree to the last bit.
+        let (m, y) = long_decay();
+        let wts: Vec<f64> = (0..y.len()).map(|i| 1.0 + (i % 7) as f64 * 0.25).collect();
+        let obs = Observations {
+            y: &y,
+            weights: Some(&wts),
+        };
+        let run = |threads: usize| {
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .unwrap()
+                .install(|| fit(&m, &obs, &[10.0, 1.5], None, &LmOptions::default()).unwrap())
+        };
+        let one = run(1);
+        assert!(one.stop.converged(), "{}", one.stop);
+        for threads in [2, 3] {
+            let other = run(threads);
+            let bits = |o: &LmOutcome| o.params.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
+            assert_eq!(bits(&one), bits(&other), "{threads} threads");
+            assert_eq!(one.ssr.to_bits(), other.ssr.to_bits());
+            assert_eq!(one.function_evals, other.function_evals);
+        }
+    }
+
+    #[test]
     fn converges_to_a_stationary_point_from_a_far_start() {
         let (m, y) = decay_data();
         let obs = Observations {
