@@ -376,6 +376,39 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     };
     let is_sheet = place.sheet().is_some();
     let n = grid.rows.len();
+    let ahead: Vec<f64> = if is_sheet {
+        Vec::new()
+    } else {
+        parse_ahead(grid, &cols_idx, fmt)
+    };
+    let per_row = cols_idx.len();
+    // Every wanted cell a plain number and no label columns (the common large file): the row
+    // loop below would take every row and every value as parsed, so the columns are the
+    // parsed values themselves, read column by column.
+    if by.is_none()
+        && groups.is_none()
+        && !is_sheet
+        && per_row > 0
+        && ahead.len() == n * per_row
+        && ahead.iter().all(|v| !v.is_nan())
+    {
+        let columns = (0..per_row)
+            .map(|k| ahead.iter().skip(k).step_by(per_row).copied().collect())
+            .collect();
+        return Ok(ParsedFile {
+            header_names,
+            cols_idx,
+            variables,
+            present,
+            units,
+            columns,
+            lines: grid.rows.iter().map(|r| r.number).collect(),
+            channels: None,
+            groups: None,
+            skipped: Vec::new(),
+            rejected: Vec::new(),
+        });
+    }
     let mut columns: Vec<Vec<f64>> = vec![Vec::with_capacity(n); cols_idx.len()];
     let mut lines = Vec::with_capacity(n);
     let mut channels = by.as_ref().map(|_| Vec::with_capacity(n));
@@ -383,12 +416,6 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     let mut skipped = Vec::new();
     let mut rejected = Vec::new();
     let mut row_values = vec![0.0; cols_idx.len()];
-    let ahead: Vec<f64> = if is_sheet {
-        Vec::new()
-    } else {
-        parse_ahead(grid, &cols_idx, fmt)
-    };
-    let per_row = cols_idx.len();
     let skip = |row: &GridRow, column: &str, reason: &str, channel: Option<&String>| SkippedRow {
         file: path.to_path_buf(),
         line: row.number,
