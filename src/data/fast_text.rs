@@ -216,11 +216,7 @@ mod tests {
     use super::*;
 
     fn row(offset: usize) -> GridRow {
-        GridRow {
-            number: 0,
-            offset,
-            cells: Vec::new(),
-        }
+        GridRow { number: 0, offset }
     }
 
     #[test]

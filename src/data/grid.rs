@@ -54,16 +54,15 @@ impl Cell {
     }
 }
 
-/// A data row.
-#[derive(Debug, Clone)]
+/// A data row: where it is. Its cells are in [`Grid::text`] (text files) or
+/// [`Grid::sheet_cells`] (workbooks); read them with [`Grid::cell`]. Plain data, so a
+/// million-row grid is 16 MB, dropped at once.
+#[derive(Debug, Clone, Copy)]
 pub struct GridRow {
     /// 1-based line of a text file, or 1-based row number of a sheet.
     pub number: usize,
     /// Byte offset of the line's start (text files).
     pub offset: usize,
-    /// The cells of a workbook row; empty for a text file, whose cells are in
-    /// [`Grid::text`] (read them with [`Grid::cell`]).
-    pub cells: Vec<Cell>,
 }
 
 #[derive(Debug, Clone)]
@@ -75,6 +74,8 @@ pub struct Grid {
     pub rows: Vec<GridRow>,
     /// The cells of a text file: data row `i` is record `first + i`.
     pub text: Option<TextRows>,
+    /// The cells of a workbook's data rows, row by row (empty for a text file).
+    pub sheet_cells: Vec<Vec<Cell>>,
     pub place: Place,
 }
 
@@ -156,7 +157,7 @@ impl Grid {
                     .nth(col)
                     .map(CellRef::Text)
             }
-            None => self.rows.get(row)?.cells.get(col).map(Cell::as_ref),
+            None => self.sheet_cells.get(row)?.get(col).map(Cell::as_ref),
         }
     }
 
@@ -170,7 +171,7 @@ impl Grid {
                 }
                 _ => 0,
             },
-            None => self.rows.get(row).map_or(0, |r| r.cells.len()),
+            None => self.sheet_cells.get(row).map_or(0, Vec::len),
         }
     }
 

@@ -189,13 +189,17 @@ where
             units = Some(cells.iter().map(cell_text).collect());
         }
     }
-    let rows: Vec<GridRow> = rows
-        .map(|(r, cells)| GridRow {
-            number: r as usize + 1,
-            offset: 0,
-            cells,
+    let (rows, sheet_cells): (Vec<GridRow>, Vec<Vec<Cell>>) = rows
+        .map(|(r, cells)| {
+            (
+                GridRow {
+                    number: r as usize + 1,
+                    offset: 0,
+                },
+                cells,
+            )
         })
-        .collect();
+        .unzip();
     if rows.is_empty() && header.is_none() {
         return Err(
             Error::input(format!("sheet \"{name}\" has no rows in the chosen cells"))
@@ -207,8 +211,9 @@ where
     let mut formulas = BTreeMap::new();
     let empty: Vec<(u32, u32)> = rows
         .iter()
-        .flat_map(|row| {
-            row.cells
+        .zip(&sheet_cells)
+        .flat_map(|(row, cells)| {
+            cells
                 .iter()
                 .enumerate()
                 .filter(|(_, c)| c.is_blank())
@@ -228,6 +233,7 @@ where
         header,
         units,
         rows,
+        sheet_cells,
         text: None,
         place: Place::Sheet(SheetPlace {
             path: path.to_path_buf(),

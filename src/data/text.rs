@@ -92,11 +92,7 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
         .get(first..)
         .unwrap_or(&[])
         .iter()
-        .map(|&(number, offset)| GridRow {
-            number,
-            offset,
-            cells: Vec::new(),
-        })
+        .map(|&(number, offset)| GridRow { number, offset })
         .collect();
     if rows.is_empty() && header.is_none() {
         return Err(no_rows(path, what_skips));
@@ -105,6 +101,7 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
         header,
         units,
         rows,
+        sheet_cells: Vec::new(),
         text: Some(match cells {
             Some(cells) => TextRows::Copied { cells, first },
             None => TextRows::Split { delimiter },
