@@ -673,10 +673,14 @@ impl MultiTape {
         Ok(())
     }
 
-    /// The once-per-call values, into `vals` (indexed by key).
+    /// The once-per-call values, into `vals` (indexed by key). Only their entries are ever
+    /// read (operands `Src::Scalar` and the scalar operations here, in dependency order), so
+    /// the others are not cleared between calls.
     fn scalars(&self, params: &[f64], vals: &mut Vec<f64>) {
-        vals.clear();
-        vals.resize(self.keys.len(), 0.0);
+        if vals.len() != self.keys.len() {
+            vals.clear();
+            vals.resize(self.keys.len(), 0.0);
+        }
         for &i in &self.scalar_order {
             vals[i as usize] = match self.keys[i as usize] {
                 Key::Const(bits) => f64::from_bits(bits),
