@@ -52,8 +52,9 @@ impl<'a> TapeModel<'a> {
         Ok(TapeModel {
             tape,
             value_tape,
-            work: RefCell::default(),
-            value_work: RefCell::default(),
+            // The columns are borrowed for the model's lifetime: the same data on every call.
+            work: RefCell::new(TapeScratch::for_fixed_columns()),
+            value_work: RefCell::new(TapeScratch::for_fixed_columns()),
             columns,
             n,
             p: free.len(),

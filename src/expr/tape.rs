@@ -102,6 +102,10 @@ struct Instr {
     out: u32,
     a: Src,
     b: Src,
+    /// The value depends on the data columns and constants only (no parameter) and is not an
+    /// output: a scratch made by [`TapeScratch::for_fixed_columns`] keeps it between calls
+    /// (see [`MultiTape::run_rows_body`]). Its register is never reused.
+    data_only: bool,
 }
 
 /// Several expressions compiled together; common sub-expressions are computed once.
@@ -118,7 +122,15 @@ pub struct MultiTape {
     /// Per register: the output whose slice holds it (the first output computed in that
     /// register; output registers are never reused), so results are written in place.
     home: Vec<Option<u32>>,
+    /// Whether any instruction is [`Instr::data_only`].
+    has_data_only: bool,
+    /// Tells the tapes apart for the values a [`TapeScratch`] keeps (copies share it: they
+    /// compute the same values).
+    id: u64,
 }
+
+/// Source of [`MultiTape::id`].
+static NEXT_TAPE_ID: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
 
 /// Working memory of an evaluation: the once-per-call values and the row registers. A
 /// caller that evaluates the same tape many times (a fit) keeps one and passes it to
@@ -127,6 +139,57 @@ pub struct MultiTape {
 pub struct TapeScratch {
     scalars: Vec<f64>,
     regs: Vec<Vec<f64>>,
+    /// Made by [`TapeScratch::for_fixed_columns`]: the caller passes the same data every time.
+    fixed_columns: bool,
+    /// The tape, columns (address and length) and rows the registers of the data-only values
+    /// were computed for, if any.
+    kept_for: Option<KeptFor>,
+    /// Whether one of the kept data-only values is not finite (the evaluation then checks its
+    /// rows, as if it had computed them).
+    kept_bad: bool,
+}
+
+/// What kept data-only values were computed for: the tape's id, each column's address and
+/// length, the number of rows.
+type KeptFor = (u64, Vec<(usize, usize)>, usize);
+
+impl TapeScratch {
+    /// A scratch for a caller that evaluates with the very same data columns on every call
+    /// (a fit: only the parameters change). It keeps the values that depend on the data
+    /// alone (`x^2`, `ln(x)`, `cos(2*pi*x/12)`) from the first evaluation for one chunk
+    /// ([`CHUNK`] rows at most) and reuses them; the results are the same to the last bit.
+    /// The columns are recognised by address and length, so the caller must not change
+    /// their contents between calls.
+    pub fn for_fixed_columns() -> TapeScratch {
+        TapeScratch {
+            fixed_columns: true,
+            ..TapeScratch::default()
+        }
+    }
+
+    fn key(tape: &MultiTape, columns: &[&[f64]], rows: usize) -> KeptFor {
+        let cols = columns
+            .iter()
+            .map(|c| (c.as_ptr() as usize, c.len()))
+            .collect();
+        (tape.id, cols, rows)
+    }
+
+    /// Whether the kept data-only values are those of `tape` on `columns`.
+    fn holds(&self, tape: &MultiTape, columns: &[&[f64]], rows: usize) -> bool {
+        match &self.kept_for {
+            Some((id, cols, r)) => {
+                *id == tape.id
+                    && *r == rows
+                    && cols.len() == columns.len()
+                    && cols
+                        .iter()
+                        .zip(columns)
+                        .all(|(&(ptr, len), c)| ptr == c.as_ptr() as usize && len == c.len())
+            }
+            None => false,
+        }
+    }
 }
 
 /// One compiled expression.
@@ -266,7 +329,21 @@ impl MultiTape {
                 Key::Op(_, a, b) => vector[a as usize] || (b != NONE && vector[b as usize]),
             };
         }
+        // Free of parameters: depends on constants and data variables only.
+        let mut param_free = vec![true; n];
+        for (i, k) in keys.iter().enumerate() {
+            param_free[i] = match *k {
+                Key::Var(_) | Key::Const(_) => true,
+                Key::Param(_) => false,
+                Key::Op(_, a, b) => param_free[a as usize] && (b == NONE || param_free[b as usize]),
+            };
+        }
+        let mut is_root = vec![false; n];
+        for &r in roots {
+            is_root[r as usize] = true;
+        }
         let is_instr = |i: usize| vector[i] && matches!(keys[i], Key::Op(..));
+        let data_only = |i: usize| is_instr(i) && param_free[i] && !is_root[i];
         let mut last_use = vec![0usize; n];
         let mut order = 0usize;
         let mut instr_index = vec![usize::MAX; n];
@@ -300,7 +377,10 @@ impl MultiTape {
             if !is_instr(i) {
                 continue;
             }
-            let out = free.pop().unwrap_or_else(|| {
+            // A data-only value gets a register of its own: one used earlier in the program
+            // would be overwritten on every call before the kept value is read.
+            let reused = if data_only(i) { None } else { free.pop() };
+            let out = reused.unwrap_or_else(|| {
                 registers += 1;
                 registers - 1
             });
@@ -316,13 +396,16 @@ impl MultiTape {
                 out,
                 a: sa,
                 b: sb,
+                data_only: data_only(i),
             });
             // Free operands whose last use is this instruction (after choosing `out`,
-            // so an instruction never writes a register it reads).
+            // so an instruction never writes a register it reads); the registers of
+            // data-only values are kept.
             let here = instr_index[i];
             for operand in [a, b] {
                 if operand != NONE
                     && is_instr(operand as usize)
+                    && !data_only(operand as usize)
                     && last_use[operand as usize] == here
                     && !free.contains(&reg_of[operand as usize])
                 {
@@ -340,6 +423,7 @@ impl MultiTape {
                 home[r as usize] = u32::try_from(k).ok();
             }
         }
+        let has_data_only = program.iter().any(|ins| ins.data_only);
         MultiTape {
             symbols,
             exprs,
@@ -349,6 +433,8 @@ impl MultiTape {
             registers: registers as usize,
             outputs,
             home,
+            has_data_only,
+            id: NEXT_TAPE_ID.fetch_add(1, std::sync::atomic::Ordering::Relaxed),
         }
     }
 
@@ -491,6 +577,18 @@ impl MultiTape {
             .iter()
             .any(|&i| !scalars[i as usize].is_finite());
         let width = CHUNK.min(rows.max(1));
+        // The data-only values of one chunk, kept by a fixed-columns scratch: computed on the
+        // first call (and checked whatever else is bad, so that a later call knows), reused
+        // on the next ones. A kept value that is not finite makes every call check its rows,
+        // as computing it would.
+        let keep = scratch.fixed_columns && self.has_data_only && rows <= CHUNK;
+        let kept = keep && scratch.holds(self, columns, rows);
+        let mut kept_bad = kept && scratch.kept_bad;
+        if !kept {
+            // The data-only registers are about to be written: until this call records
+            // them, they hold nothing to reuse.
+            scratch.kept_for = None;
+        }
         let regs = &mut scratch.regs;
         if regs.len() < self.registers {
             regs.resize(self.registers, Vec::new());
@@ -504,8 +602,11 @@ impl MultiTape {
         while lo < rows {
             let hi = (lo + CHUNK).min(rows);
             let len = hi - lo;
-            let mut bad = scalars_bad;
+            let mut bad = scalars_bad || kept_bad;
             for ins in &self.program {
+                if kept && ins.data_only {
+                    continue;
+                }
                 // An output's register is the output slice itself: no copy at the end.
                 let finite = match self.home[ins.out as usize] {
                     None => {
@@ -515,7 +616,13 @@ impl MultiTape {
                             operand(ins.b, regs, outs, &self.home, columns, scalars, lo, hi),
                         );
                         exec(ins.op, &mut out[..len], a, b);
-                        let finite = !checked || bad || all_finite(&out[..len]);
+                        let finite = if keep && ins.data_only {
+                            let finite = all_finite(&out[..len]);
+                            kept_bad |= !finite;
+                            !checked || finite
+                        } else {
+                            !checked || bad || all_finite(&out[..len])
+                        };
                         regs[ins.out as usize] = out;
                         finite
                     }
@@ -559,13 +666,21 @@ impl MultiTape {
             }
             lo = hi;
         }
+        if keep && !kept && rows > 0 {
+            scratch.kept_for = Some(TapeScratch::key(self, columns, rows));
+            scratch.kept_bad = kept_bad;
+        }
         Ok(())
     }
 
-    /// The once-per-call values, into `vals` (indexed by key).
+    /// The once-per-call values, into `vals` (indexed by key). Only their entries are ever
+    /// read (operands `Src::Scalar` and the scalar operations here, in dependency order), so
+    /// the others are not cleared between calls.
     fn scalars(&self, params: &[f64], vals: &mut Vec<f64>) {
-        vals.clear();
-        vals.resize(self.keys.len(), 0.0);
+        if vals.len() != self.keys.len() {
+            vals.clear();
+            vals.resize(self.keys.len(), 0.0);
+        }
         for &i in &self.scalar_order {
             vals[i as usize] = match self.keys[i as usize] {
                 Key::Const(bits) => f64::from_bits(bits),

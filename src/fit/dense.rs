@@ -561,8 +561,11 @@ pub(crate) struct DampedWork {
     sdiag: Vec<f64>,
     z: Vec<f64>,
     /// The rotations of the last [`damped_solve`] in order, (k, cos, sin), with
-    /// [`NEW_ROW`] where the next √λ·D row starts; [`damped_resolve`] replays them.
+    /// [`NEW_ROW`] where the next √λ·D row starts; [`damped_resolve`] replays them. Sized
+    /// once for the most a solve can record (p·(p + 1)/2 rotations and p markers); the first
+    /// `count` entries are the last solve's.
     rotations: Vec<(usize, f64, f64)>,
+    count: usize,
     /// Whether `s` holds a reduced triangle (the last solve got that far).
     reduced: bool,
 }
@@ -576,10 +579,33 @@ impl DampedWork {
             s: vec![0.0; p * p],
             sdiag: vec![0.0; p],
             z: vec![0.0; p],
-            rotations: Vec::with_capacity(p * (p + 1) / 2 + p),
+            rotations: vec![(NEW_ROW, 0.0, 0.0); p * (p + 1) / 2 + p],
+            count: 0,
             reduced: false,
         }
     }
+}
+
+/// Calls `$body` with `$p` replaced by a constant for the parameter counts of typical models
+/// (1 to 10), so that the compiler unrolls the short loops of the O(p²) and O(p³) kernels and
+/// drops their bounds checks; other counts run the same code with `$p` as it is. The
+/// arithmetic, and so every bit of the result, is the same either way.
+macro_rules! with_constant_p {
+    ($p:expr, $body:ident($($arg:expr),*)) => {
+        match $p {
+            1 => $body(1, $($arg),*),
+            2 => $body(2, $($arg),*),
+            3 => $body(3, $($arg),*),
+            4 => $body(4, $($arg),*),
+            5 => $body(5, $($arg),*),
+            6 => $body(6, $($arg),*),
+            7 => $body(7, $($arg),*),
+            8 => $body(8, $($arg),*),
+            9 => $body(9, $($arg),*),
+            10 => $body(10, $($arg),*),
+            p => $body(p, $($arg),*),
+        }
+    };
 }
 
 /// Solve the damped least-squares problem
@@ -600,8 +626,23 @@ pub(crate) fn damped_solve(
     work: &mut DampedWork,
     x: &mut [f64],
 ) -> bool {
-    let (n, p) = qr.shape();
-    let q = qr.as_slice();
+    with_constant_p!(qr.ncols(), damped_solve_p(qr, diag, lambda, qtb, work, x))
+}
+
+/// The body of [`damped_solve`] for p = `qr.ncols()`, given as `p` so that it can be a
+/// constant.
+#[inline(always)]
+fn damped_solve_p(
+    p: usize,
+    qr: &DMatrix<f64>,
+    diag: &[f64],
+    lambda: f64,
+    qtb: &[f64],
+    work: &mut DampedWork,
+    x: &mut [f64],
+) -> bool {
+    let n = qr.nrows();
+    let q = &qr.as_slice()[..n * p];
     let sqrt_lambda = lambda.sqrt();
     let s = &mut work.s[..p * p];
     // The upper triangle of R, row-major: s[k·p + i] = R[k, i] (column-major qr: i·n + k).
@@ -611,8 +652,9 @@ pub(crate) fn damped_solve(
         }
     }
     let (z, sdiag) = (&mut work.z[..p], &mut work.sdiag[..p]);
-    let rotations = &mut work.rotations;
-    rotations.clear();
+    let diag = &diag[..p];
+    let rotations = &mut work.rotations[..p * (p + 1) / 2 + p];
+    let mut count = 0;
     z.copy_from_slice(&qtb[..p]);
     for j in 0..p {
         let dj = sqrt_lambda * diag[j];
@@ -623,7 +665,8 @@ pub(crate) fn damped_solve(
         sdiag[j] = dj;
         // The extra row starts with right-hand side 0.
         let mut qtbpj = 0.0;
-        rotations.push((NEW_ROW, 0.0, 0.0));
+        rotations[count] = (NEW_ROW, 0.0, 0.0);
+        count += 1;
         for k in j..p {
             let sk = sdiag[k];
             if sk == 0.0 {
@@ -632,7 +675,8 @@ pub(crate) fn damped_solve(
             let row = &mut s[k * p..(k + 1) * p];
             let rkk = row[k];
             let (cos, sin) = givens(rkk, sk);
-            rotations.push((k, cos, sin));
+            rotations[count] = (k, cos, sin);
+            count += 1;
             row[k] = cos * rkk + sin * sk;
             let zk = z[k];
             z[k] = cos * zk + sin * qtbpj;
@@ -644,8 +688,9 @@ pub(crate) fn damped_solve(
             }
         }
     }
+    work.count = count;
     work.reduced = true;
-    back_substitute(&work.s[..p * p], &work.z[..p], &mut x[..p])
+    back_substitute(p, &work.s[..p * p], &work.z[..p], &mut x[..p])
 }
 
 /// [`damped_solve`] again with the same R, D and λ and a new right-hand side `qtb`: the
@@ -657,11 +702,17 @@ pub(crate) fn damped_resolve(work: &mut DampedWork, qtb: &[f64], x: &mut [f64]) 
     if !work.reduced {
         return false;
     }
-    let p = work.z.len();
+    with_constant_p!(work.z.len(), damped_resolve_p(work, qtb, x))
+}
+
+/// The body of [`damped_resolve`] for p = `work.z.len()`, given as `p` so that it can be a
+/// constant.
+#[inline(always)]
+fn damped_resolve_p(p: usize, work: &mut DampedWork, qtb: &[f64], x: &mut [f64]) -> bool {
     let z = &mut work.z[..p];
     z.copy_from_slice(&qtb[..p]);
     let mut qtbpj = 0.0;
-    for &(k, cos, sin) in &work.rotations {
+    for &(k, cos, sin) in &work.rotations[..work.count] {
         if k == NEW_ROW {
             qtbpj = 0.0;
             continue;
@@ -670,13 +721,14 @@ pub(crate) fn damped_resolve(work: &mut DampedWork, qtb: &[f64], x: &mut [f64]) 
         z[k] = cos * zk + sin * qtbpj;
         qtbpj = -sin * zk + cos * qtbpj;
     }
-    back_substitute(&work.s[..p * p], &work.z[..p], &mut x[..p])
+    back_substitute(p, &work.s[..p * p], &work.z[..p], &mut x[..p])
 }
 
 /// Solves S·x = z for the row-major upper triangle S (p × p), in the order of
 /// `solve_upper`; false on a zero diagonal entry or a non-finite solution.
-fn back_substitute(s: &[f64], z: &[f64], x: &mut [f64]) -> bool {
-    let p = z.len();
+#[inline(always)]
+fn back_substitute(p: usize, s: &[f64], z: &[f64], x: &mut [f64]) -> bool {
+    let (s, z, x) = (&s[..p * p], &z[..p], &mut x[..p]);
     for i in (0..p).rev() {
         let row = &s[i * p..(i + 1) * p];
         let mut acc = z[i];

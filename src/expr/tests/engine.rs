@@ -502,3 +502,56 @@ fn reused_scratch_gives_the_values_of_a_fresh_evaluation() {
     check(&large, &mut scratch, &[0.0, 1.0, 2.0], &[1.0, 0.25, 0.3]);
     check(&small, &mut scratch, &many, &[-0.5]);
 }
+
+#[test]
+fn kept_data_only_values_give_the_values_of_a_fresh_evaluation() {
+    // A fixed-columns scratch keeps x^2, x^3, ln(x) and cos(2*pi*x/12) from the first call
+    // and reuses them. Different parameters, another tape, other columns, several chunks and
+    // a domain error in a data-only value (ln of 0 or of a negative x) in between: every
+    // result and every error is that of a fresh evaluation, call after call.
+    let vars = Symbols::new(&["x"], &["a", "b", "c"]);
+    let rational = MultiTape::model_and_jacobian(
+        &p("(a + b*x + c*x^2 + x^3) / (1 + a*x + b*x^3) + ln(x)*c"),
+        &vars,
+    )
+    .unwrap();
+    let periodic =
+        MultiTape::model_and_jacobian(&p("a + b*cos(2*pi*x/12) + c*sin(2*pi*x/b)"), &vars).unwrap();
+    // Here ln(x) (of the derivative by b) and x^2 come after values whose registers are free
+    // again by then: a kept value must not share one of them.
+    let late = MultiTape::model_and_jacobian(&p("b*exp(-(c*x)^2) + a*x^b"), &vars).unwrap();
+    let late_too = MultiTape::model_and_jacobian(&p("exp(-c*x)/(1 + a*x)^2 + x^b"), &vars).unwrap();
+    let check = |tape: &MultiTape, scratch: &mut TapeScratch, x: &[f64], params: &[f64]| {
+        let k = tape.exprs().len();
+        let mut a = vec![vec![0.0; x.len()]; k];
+        let mut b = a.clone();
+        let mut ra: Vec<&mut [f64]> = a.iter_mut().map(|v| v.as_mut_slice()).collect();
+        let mut rb: Vec<&mut [f64]> = b.iter_mut().map(|v| v.as_mut_slice()).collect();
+        let fresh = tape.eval(&[x], params, &mut ra);
+        let kept = tape.eval_in(scratch, &[x], params, &mut rb);
+        assert_eq!(fresh, kept);
+        let bits = |v: &[Vec<f64>]| -> Vec<Vec<u64>> {
+            v.iter()
+                .map(|c| c.iter().map(|x| x.to_bits()).collect())
+                .collect()
+        };
+        assert_eq!(bits(&a), bits(&b));
+        fresh.is_ok()
+    };
+    let x: Vec<f64> = (1..=37).map(|i| f64::from(i) * 0.37).collect();
+    let bad: Vec<f64> = (0..9).map(|i| f64::from(i) - 2.0).collect();
+    let many: Vec<f64> = (1..=tape::CHUNK + 9).map(|i| i as f64 * 0.01).collect();
+    let mut scratch = TapeScratch::for_fixed_columns();
+    for tape in [&rational, &periodic, &late, &late_too] {
+        for params in [[1.0, 0.5, 0.25], [2.0, -0.1, 3.0], [f64::NAN, 0.5, 1.0]] {
+            check(tape, &mut scratch, &x, &params);
+        }
+    }
+    // ln(x) of x ≤ 0 is a domain error on every call, not only the one that computed it.
+    assert!(!check(&rational, &mut scratch, &bad, &[1.0, 0.5, 0.25]));
+    assert!(!check(&rational, &mut scratch, &bad, &[2.0, 0.5, 0.25]));
+    check(&rational, &mut scratch, &many, &[1.0, 0.5, 0.25]);
+    check(&rational, &mut scratch, &x, &[1.5, 0.5, 0.25]);
+    check(&periodic, &mut scratch, &x, &[1.5, 0.5, 0.25]);
+    check(&rational, &mut scratch, &x, &[1.5, 0.7, 0.25]);
+}
