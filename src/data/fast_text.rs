@@ -43,12 +43,23 @@ pub fn records(text: &str, delimiter: u8) -> Vec<(usize, usize)> {
         .into_par_iter()
         .map(|range| chunk_records(text, range, delimiter))
         .collect();
-    let mut out = Vec::with_capacity(found.iter().map(|(_, r)| r.len()).sum());
-    let mut line = 1;
-    for (lines, recs) in found {
-        out.extend(recs.into_iter().map(|(l, offset)| (line + l, offset)));
+    // Each chunk's records copied to their place in one list, the chunks side by side (the
+    // first line number of each chunk known from the line counts before it).
+    let total = found.iter().map(|(_, r)| r.len()).sum();
+    let mut out = vec![(0, 0); total];
+    let mut jobs = Vec::with_capacity(found.len());
+    let (mut rest, mut line) = (&mut out[..], 1);
+    for (lines, recs) in &found {
+        let (mine, tail) = rest.split_at_mut(recs.len());
+        jobs.push((mine, line, recs));
+        rest = tail;
         line += lines;
     }
+    jobs.into_par_iter().for_each(|(dest, first, recs)| {
+        for (d, &(l, offset)) in dest.iter_mut().zip(recs.iter()) {
+            *d = (first + l, offset);
+        }
+    });
     out
 }
 

@@ -88,11 +88,11 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
             first = 2;
         }
     }
+    // The record list becomes the rows in place (same layout; no second 16 bytes per row).
     let rows: Vec<GridRow> = at
-        .get(first..)
-        .unwrap_or(&[])
-        .iter()
-        .map(|&(number, offset)| GridRow { number, offset })
+        .into_iter()
+        .skip(first)
+        .map(|(number, offset)| GridRow { number, offset })
         .collect();
     if rows.is_empty() && header.is_none() {
         return Err(no_rows(path, what_skips));
