@@ -78,8 +78,10 @@
 //! per-row sums of each trial (residuals, SSR, actual reduction and its noise) are taken in
 //! one pass over the rows. From [`STREAMING_QR_FROM`] rows on the QR of J_w is computed block
 //! by block, keeping only R and the first p entries of Qᵀe, which is all the damped solve
-//! uses (sequential TSQR: Demmel, Grigori, Hoemmen & Langou, "Communication-optimal parallel
-//! and sequential QR and LU factorizations", SIAM J. Sci. Comput. 34(1), 2012).
+//! uses (TSQR: Demmel, Grigori, Hoemmen & Langou, "Communication-optimal parallel and
+//! sequential QR and LU factorizations", SIAM J. Sci. Comput. 34(1), 2012), and that pass,
+//! the trial sums and the acceleration's projection run in the fixed row blocks of
+//! [`super::rows`] on the rayon pool: the same bits with any number of threads.
 
 use std::fmt;
 
