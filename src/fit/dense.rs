@@ -60,19 +60,13 @@ pub(crate) fn dot(a: &[f64], b: &[f64]) -> f64 {
 
 /// The body of [`dot`], for use inside other vector kernels.
 #[inline(always)]
-fn dot_kernel(a: &[f64], b: &[f64]) -> f64 {
+pub(crate) fn dot_kernel(a: &[f64], b: &[f64]) -> f64 {
     let n = a.len().min(b.len());
     let whole = n - n % 4;
     let (a, b) = (&a[..n], &b[..n]);
     let acc = lanes(dot_blocks(&a[..whole], &b[..whole]));
     let tail: f64 = a[whole..].iter().zip(&b[whole..]).map(|(x, y)| x * y).sum();
     (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
-}
-
-/// [`dot`]'s kernel for use inside other vector kernels of the fit module.
-#[inline(always)]
-pub(crate) fn dot_slices(a: &[f64], b: &[f64]) -> f64 {
-    dot_kernel(a, b)
 }
 
 /// The four lane sums of [`dot`] over the whole blocks of four.
@@ -120,7 +114,7 @@ pub(crate) fn weighted_column_sums(c: &[f64], s: Option<&[f64]>, e: &[f64]) -> (
 
 /// ‖q‖ from its plain sum of squares `sum`, as [`norm2`] takes it: when that is tiny or huge,
 /// the scaled norm of the weighted column, formed again (rare).
-fn column_norm(sum: f64, c: &[f64], s: Option<&[f64]>) -> f64 {
+pub(crate) fn column_norm(sum: f64, c: &[f64], s: Option<&[f64]>) -> f64 {
     if sum.is_finite() && sum > 1e-280 {
         return sum.sqrt();
     }
@@ -359,12 +353,6 @@ fn block_triangle(
         }
     }
     BlockTriangle { tri, sums }
-}
-
-/// ‖q‖ for the weighted column q = c ⊙ s (`s` None for unit weights) from its plain sum of
-/// squares `sum`, as [`weighted_column_sums`] gives it.
-pub(crate) fn norm_from_sum(sum: f64, c: &[f64], s: Option<&[f64]>) -> f64 {
-    column_norm(sum, c, s)
 }
 
 /// One step of the blocked QR: the column-major block in `work` (leading dimension `ld`,
@@ -988,10 +976,7 @@ mod tests {
                     sums[j].0
                 );
                 assert!(
-                    close(
-                        norm_from_sum(sums[j].1, c, (!unit).then_some(&sw[..])),
-                        norm
-                    ),
+                    close(column_norm(sums[j].1, c, (!unit).then_some(&sw[..])), norm),
                     "column {j}"
                 );
                 // ‖R e_j‖ = ‖A e_j‖ (Q orthogonal).

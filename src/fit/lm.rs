@@ -655,7 +655,7 @@ pub fn fit<M: Model + ?Sized>(
             let col = &w.jac.as_slice()[j * n..(j + 1) * n];
             let (g, c) = if streaming {
                 let (g, sum) = w.sums[j];
-                (g, dense::norm_from_sum(sum, col, sqrt_w))
+                (g, dense::column_norm(sum, col, sqrt_w))
             } else {
                 let qcol = &mut w.qr.as_mut_slice()[j * n..(j + 1) * n];
                 dense::weighted_column(col, sqrt_w, &w.e, qcol)
@@ -1095,7 +1095,7 @@ fn projected_rows(
             }
         }
         for (j, g) in jtr.iter_mut().enumerate() {
-            *g += dense::dot_slices(&jac[j * n + lo..j * n + lo + len], piece);
+            *g += dense::dot_kernel(&jac[j * n + lo..j * n + lo + len], piece);
         }
         lo += len;
     }
