@@ -18,6 +18,7 @@ pub mod nested;
 pub mod normality;
 pub mod roots;
 pub mod runs;
+pub mod sort;
 
 use std::fmt;
 
