@@ -9,7 +9,7 @@
 //! No p-value is given: the bounds of the test depend on the design matrix,
 //! and the acceptance layer compares d with the recipe's limits.
 
-use super::{NotApplicable, Outcome, StatsError, ensure_finite, ensure_len, order_by_key};
+use super::{NotApplicable, Outcome, StatsError, ensure_finite, ensure_len, in_key_order};
 
 /// Durbin–Watson `d` of `residuals` in the order given. Not applicable for
 /// fewer than 2 residuals or when all residuals are zero.
@@ -38,12 +38,7 @@ pub fn durbin_watson_ordered(
     order_key: &[f64],
 ) -> Result<Outcome<f64>, StatsError> {
     ensure_len("order key", order_key, residuals.len())?;
-    let order = order_by_key(order_key)?;
-    let ordered: Vec<f64> = order
-        .iter()
-        .filter_map(|&i| residuals.get(i).copied())
-        .collect();
-    durbin_watson(&ordered)
+    durbin_watson(&in_key_order(residuals, order_key)?)
 }
 
 #[cfg(test)]

@@ -190,3 +190,48 @@ pub fn order_by_key(key: &[f64]) -> Result<Vec<usize>, StatsError> {
     idx.sort_by(|&a, &b| key[a].total_cmp(&key[b]));
     Ok(idx)
 }
+
+/// `values` taken in ascending order of `key` (ties in row order), as [`order_by_key`] gives
+/// it; borrowed as they are when the key is already in order (data recorded in order of the
+/// predictor, the common case), so no index or copy of a million rows is made. NaN keys are
+/// an error; `values` and `key` have the same length (checked by the callers).
+pub fn in_key_order<'a>(
+    values: &'a [f64],
+    key: &[f64],
+) -> Result<std::borrow::Cow<'a, [f64]>, StatsError> {
+    ensure_finite("order key", key)?;
+    // Non-decreasing keys: the stable sort would leave every row where it is.
+    if key.is_sorted_by(|a, b| a.total_cmp(b).is_le()) {
+        return Ok(values.into());
+    }
+    let order = order_by_key(key)?;
+    Ok(order
+        .iter()
+        .filter_map(|&i| values.get(i).copied())
+        .collect::<Vec<f64>>()
+        .into())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn values_in_key_order_match_the_stable_order_and_borrow_when_in_order() {
+        let values = [10.0, 20.0, 30.0, 40.0, 50.0];
+        // Ties (2.0 twice) keep their row order.
+        let shuffled = in_key_order(&values, &[3.0, 2.0, 5.0, 2.0, 1.0]).expect("finite keys");
+        assert_eq!(&*shuffled, &[50.0, 20.0, 40.0, 10.0, 30.0]);
+        assert!(matches!(shuffled, std::borrow::Cow::Owned(_)));
+        let sorted = in_key_order(&values, &[1.0, 2.0, 2.0, 3.0, 9.0]).expect("finite keys");
+        assert_eq!(&*sorted, &values);
+        assert!(matches!(sorted, std::borrow::Cow::Borrowed(_)));
+        assert_eq!(
+            in_key_order(&values, &[1.0, f64::NAN, 2.0, 3.0, 4.0]),
+            Err(StatsError::NonFinite {
+                what: "order key",
+                index: 1
+            })
+        );
+    }
+}

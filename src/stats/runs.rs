@@ -13,7 +13,7 @@
 //! Statist. 14 (1943) 66–87, for the exact distribution.
 
 use super::distributions::normal_cdf;
-use super::{NotApplicable, Outcome, StatsError, ensure_finite, ensure_len, order_by_key};
+use super::{NotApplicable, Outcome, StatsError, ensure_finite, ensure_len, in_key_order};
 
 /// Largest sign count for which the exact distribution is used: the exact
 /// distribution applies when both `n₊ ≤ 20` and `n₋ ≤ 20` (SPEC §13), the
@@ -62,12 +62,7 @@ pub struct RunsTest {
 pub fn runs_test(residuals: &[f64], order_key: &[f64]) -> Result<Outcome<RunsTest>, StatsError> {
     ensure_len("order key", order_key, residuals.len())?;
     ensure_finite("residuals", residuals)?;
-    let order = order_by_key(order_key)?;
-    let ordered: Vec<f64> = order
-        .iter()
-        .filter_map(|&i| residuals.get(i).copied())
-        .collect();
-    runs_test_in_order(&ordered)
+    runs_test_in_order(&in_key_order(residuals, order_key)?)
 }
 
 /// Runs test on `residuals` in the order given.
