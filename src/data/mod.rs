@@ -12,6 +12,7 @@ mod fast_text;
 mod files;
 mod grid;
 pub mod number;
+mod plain;
 mod replicates;
 mod sheet;
 mod table;
