@@ -4,6 +4,7 @@
 //! per-row labels; [`split_by`] and [`average_replicates`] are pure functions over a
 //! [`Dataset`].
 
+mod buffer;
 mod channels;
 mod contain;
 mod decode;

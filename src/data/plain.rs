@@ -22,6 +22,7 @@
 
 use rayon::prelude::*;
 
+use super::buffer;
 use super::fast_text::{cut, fields, is_blank, line_at, parse_row};
 use super::table::{ParsedFile, check_keys_apply, choose_columns, first_duplicate};
 use super::{RowOrigin, Wanted};
@@ -133,7 +134,7 @@ pub(super) fn read(
 
     // Pass 2: every piece into its stretch of each column (allocated zeroed, so that its
     // pages are first touched by the thread that writes them).
-    let mut columns: Vec<Vec<f64>> = cols.iter().map(|_| vec![0.0; lines]).collect();
+    let mut columns: Vec<Vec<f64>> = cols.iter().map(|_| buffer::zeroed_f64(lines)).collect();
     let mut stretches: Vec<Vec<&mut [f64]>> = checked
         .iter()
         .map(|_| Vec::with_capacity(cols.len()))
@@ -175,7 +176,7 @@ pub(super) fn read(
         row += p.rows;
         line += n;
     }
-    let mut origins = Vec::with_capacity(rows);
+    let mut origins = buffer::with_capacity(rows);
     origins.par_extend((0..rows).into_par_iter().map(|i| {
         let c = firsts.partition_point(|&(r, _)| r <= i).saturating_sub(1);
         let (row0, line0) = firsts.get(c).copied().unwrap_or((0, 1));
@@ -211,7 +212,7 @@ fn is_plain_piece(bytes: &[u8]) -> bool {
 
 /// Lines of a piece: its line ends, plus a last line without one.
 fn line_count(piece: &[u8]) -> usize {
-    let ends = piece.iter().filter(|&&b| b == b'\n').count();
+    let ends = memchr::memchr_iter(b'\n', piece).count();
     ends + usize::from(piece.last().is_some_and(|&b| b != b'\n'))
 }
 

@@ -45,7 +45,7 @@ pub fn read_all(
     let mut first: Option<(PathBuf, Vec<bool>)> = None;
     let mut units: Vec<Option<String>> = Vec::new();
     for (fi, file) in files.iter().enumerate() {
-        let bytes = std::fs::read(&file.path).map_err(|e| {
+        let bytes = super::buffer::read_file(&file.path).map_err(|e| {
             Error::input(format!("cannot read data file: {e}"))
                 .in_file(&file.path)
                 .help("check that the file exists and is readable")
