@@ -177,20 +177,29 @@ pub(super) fn read(
         line += n;
     }
     let mut origins = buffer::with_capacity(rows);
-    origins.par_extend((0..rows).into_par_iter().map(|i| {
-        let c = firsts.partition_point(|&(r, _)| r <= i).saturating_sub(1);
-        let (row0, line0) = firsts.get(c).copied().unwrap_or((0, 1));
-        let j = i - row0;
-        let within = read
-            .get(c)
-            .and_then(|p| p.lines.as_ref())
-            .and_then(|l| l.get(j).copied())
-            .unwrap_or(j);
-        RowOrigin {
+    if rows == lines {
+        // No blank line: row `i` is line `i` after the header.
+        let first = head_lines + 1;
+        origins.par_extend((0..rows).into_par_iter().map(|i| RowOrigin {
             file,
-            line: line0 + within,
-        }
-    }));
+            line: first + i,
+        }));
+    } else {
+        origins.par_extend((0..rows).into_par_iter().map(|i| {
+            let c = firsts.partition_point(|&(r, _)| r <= i).saturating_sub(1);
+            let (row0, line0) = firsts.get(c).copied().unwrap_or((0, 1));
+            let j = i - row0;
+            let within = read
+                .get(c)
+                .and_then(|p| p.lines.as_ref())
+                .and_then(|l| l.get(j).copied())
+                .unwrap_or(j);
+            RowOrigin {
+                file,
+                line: line0 + within,
+            }
+        }));
+    }
     Some(ParsedFile {
         chosen,
         columns,
