@@ -6,6 +6,9 @@
 //! The numbers of a text grid are parsed up front in parallel (`parse_ahead`); the row loop
 //! keeps the order of messages and skipped rows.
 //!
+//! A plain numeric text skips the grid: [`super::plain`] reads it straight into its columns,
+//! or declines (any file or cell outside that case), and the file is then read as above.
+//!
 //! A bad cell normally stops the load at once. In lenient mode (recipes with `by`, where one
 //! channel must not stop the others) the row is set aside with its error and its channel, and
 //! reading goes on; only errors about a whole file still stop it.
