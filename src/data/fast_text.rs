@@ -67,13 +67,18 @@ pub fn records(text: &str, delimiter: u8) -> Vec<(usize, usize)> {
 /// Byte ranges covering `text`, each but the last ending just after a `\n`: one per thread
 /// and a few more, so that a busy core does not hold up the others.
 fn chunks(text: &str) -> Vec<std::ops::Range<usize>> {
-    let len = text.len();
-    let n = if len < PARALLEL_BYTES {
+    let n = if text.len() < PARALLEL_BYTES {
         1
     } else {
         rayon::current_num_threads().max(1) * 4
     };
-    let bytes = text.as_bytes();
+    cut(text.as_bytes(), n)
+}
+
+/// At most `n` byte ranges covering `bytes`, each but the last ending just after a `\n`, of
+/// about equal length.
+pub fn cut(bytes: &[u8], n: usize) -> Vec<std::ops::Range<usize>> {
+    let len = bytes.len();
     let mut out = Vec::with_capacity(n);
     let mut start = 0;
     for k in 1..n {
@@ -123,7 +128,7 @@ fn chunk_records(
 }
 
 /// A line whose fields are all empty after `str::trim`.
-fn is_blank(line: &str, delimiter: u8) -> bool {
+pub fn is_blank(line: &str, delimiter: u8) -> bool {
     let d = char::from(delimiter);
     line.chars().all(|c| c == d || c.is_whitespace())
 }
@@ -167,8 +172,10 @@ pub fn parse_columns(
     out
 }
 
-/// The wanted cells of the line at `offset` into `slots` (left NaN when not plain numbers).
-fn parse_row(
+/// The wanted cells of the line at `offset` into `slots` (left NaN when not plain numbers);
+/// the index in `bytes` where the scan stopped: the line end (or the end of `bytes`), or the
+/// start of the field after the last wanted one.
+pub fn parse_row(
     bytes: &[u8],
     offset: usize,
     delimiter: u8,
@@ -176,7 +183,7 @@ fn parse_row(
     last: usize,
     mark: u8,
     slots: &mut [f64],
-) {
+) -> usize {
     // A wanted cell is scanned as a number in one pass unless the delimiter could be part
     // of one (a digit, sign, mark, exponent or blank); then its end is found first.
     let scan = !(delimiter.is_ascii_digit()
@@ -213,9 +220,10 @@ fn parse_row(
         }
         match rest.get(len) {
             Some(&c) if c == delimiter => start += len + 1,
-            _ => break,
+            _ => return start + len,
         }
     }
+    start
 }
 
 /// Length of the cell at the start of `s`: up to the delimiter or the line end.

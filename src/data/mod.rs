@@ -4,6 +4,7 @@
 //! per-row labels; [`split_by`] and [`average_replicates`] are pure functions over a
 //! [`Dataset`].
 
+mod buffer;
 mod channels;
 mod contain;
 mod decode;
@@ -12,6 +13,7 @@ mod fast_text;
 mod files;
 mod grid;
 pub mod number;
+mod plain;
 mod replicates;
 mod sheet;
 mod table;

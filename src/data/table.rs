@@ -6,6 +6,9 @@
 //! The numbers of a text grid are parsed up front in parallel (`parse_ahead`); the row loop
 //! keeps the order of messages and skipped rows.
 //!
+//! A plain numeric text skips the grid: [`super::plain`] reads it straight into its columns,
+//! or declines (any file or cell outside that case), and the file is then read as above.
+//!
 //! A bad cell normally stops the load at once. In lenient mode (recipes with `by`, where one
 //! channel must not stop the others) the row is set aside with its error and its channel, and
 //! reading goes on; only errors about a whole file still stop it.
@@ -45,16 +48,21 @@ pub fn read_all(
     let mut first: Option<(PathBuf, Vec<bool>)> = None;
     let mut units: Vec<Option<String>> = Vec::new();
     for (fi, file) in files.iter().enumerate() {
-        let bytes = std::fs::read(&file.path).map_err(|e| {
+        let bytes = super::buffer::read_file(&file.path).map_err(|e| {
             Error::input(format!("cannot read data file: {e}"))
                 .in_file(&file.path)
                 .help("check that the file exists and is readable")
         })?;
-        // The hash is computed on one core while the file is split on the others; its
-        // mismatch is still reported before anything the split found.
-        let (sha256, grid) = rayon::join(
+        // The hash is computed on one core while the file is read on the others; its
+        // mismatch is still reported before anything the reading found. A plain numeric text
+        // is read straight into its columns; any other file, or any cell that is not a plain
+        // number, goes through the grid (and gives the grid's messages).
+        let (sha256, read) = rayon::join(
             || crate::hash::sha256_hex(&bytes),
-            || read_grid(recipe, &file.path, &bytes),
+            || match super::plain::read(recipe, &file.path, &bytes, wanted, fi) {
+                Some(parsed) => Read::Plain(parsed),
+                None => Read::Grid(read_grid(recipe, &file.path, &bytes)),
+            },
         );
         if let Some(expected) = &file.spec.sha256
             && *expected != sha256
@@ -65,20 +73,33 @@ pub fn read_all(
                 .note(format!("found  {sha256}"))
                 .help("the file changed since it was pinned: restore it, or update `sha256` after review"));
         }
-        // The decoded text is kept in the grid for messages; the bytes are not needed any more.
-        drop(bytes);
-        let grid = grid?;
-        let parsed = extract(recipe, &grid, wanted, lenient)?;
+        // The bytes of a file read without its grid are kept for the one message that
+        // needs the grid (below).
+        let (parsed, grid, bytes) = match read {
+            Read::Plain(parsed) => (parsed, None, Some(bytes)),
+            Read::Grid(grid) => {
+                // The decoded text is kept in the grid for messages; the bytes are not
+                // needed any more.
+                drop(bytes);
+                let grid = grid?;
+                (
+                    extract(recipe, &grid, wanted, lenient, fi)?,
+                    Some(grid),
+                    None,
+                )
+            }
+        };
+        let chosen = &parsed.chosen;
         match &first {
             None => {
-                first = Some((file.path.clone(), parsed.present.clone()));
-                ds.variables = parsed.variables.clone();
-                ds.headers = parsed.header_names.clone();
-                ds.columns = vec![Vec::new(); parsed.variables.len()];
-                units = parsed.units.clone();
+                first = Some((file.path.clone(), chosen.present.clone()));
+                ds.variables = chosen.variables.clone();
+                ds.headers = chosen.header_names.clone();
+                ds.columns = vec![Vec::new(); chosen.variables.len()];
+                units = chosen.units.clone();
             }
             Some((first_path, present)) => {
-                if *present != parsed.present {
+                if *present != chosen.present {
                     return Err(Error::input(format!(
                         "data file `{}` does not have the same columns as `{}`",
                         file.path.display(),
@@ -87,20 +108,26 @@ pub fn read_all(
                     .in_file(&file.path)
                     .help("every file matched by [data] files must have the same columns"));
                 }
-                for (k, (have, new)) in units.iter_mut().zip(&parsed.units).enumerate() {
+                for (k, (have, new)) in units.iter_mut().zip(&chosen.units).enumerate() {
                     match (have.as_deref(), new.as_deref()) {
                         (Some(a), Some(b)) if a != b => {
                             let column = ds.headers.get(k).cloned().unwrap_or_default();
-                            let col = parsed.cols_idx.get(k).copied().unwrap_or(0);
-                            return Err(grid.place.locate(
-                                RowAt::Units,
-                                col,
-                                Error::input(format!(
-                                    "the units row gives `{column}` in {b}, but `{}` gives {a}",
-                                    first_path.display()
-                                ))
-                                .help("files read together must use the same units; convert one export or read them with separate recipes"),
-                            ));
+                            let col = chosen.cols_idx.get(k).copied().unwrap_or(0);
+                            let err = Error::input(format!(
+                                "the units row gives `{column}` in {b}, but `{}` gives {a}",
+                                first_path.display()
+                            ))
+                            .help("files read together must use the same units; convert one export or read them with separate recipes");
+                            // A file read without its grid: the grid is made for the message.
+                            let grid = match grid {
+                                Some(g) => g,
+                                None => read_grid(
+                                    recipe,
+                                    &file.path,
+                                    bytes.as_deref().unwrap_or_default(),
+                                )?,
+                            };
+                            return Err(grid.place.locate(RowAt::Units, col, err));
                         }
                         (None, Some(_)) => *have = new.clone(),
                         _ => {}
@@ -108,15 +135,20 @@ pub fn read_all(
                 }
             }
         }
+        let rows = parsed.origins.len();
+        // The first file's columns become the data set's as they are (no copy).
         for (col, values) in ds.columns.iter_mut().zip(parsed.columns) {
-            col.extend(values);
+            if col.is_empty() {
+                *col = values;
+            } else {
+                col.extend(values);
+            }
         }
-        ds.origins.extend(
-            parsed
-                .lines
-                .iter()
-                .map(|&line| RowOrigin { file: fi, line }),
-        );
+        if ds.origins.is_empty() {
+            ds.origins = parsed.origins;
+        } else {
+            ds.origins.extend(parsed.origins);
+        }
         if let (Some(all), Some(these)) = (ds.channels.as_mut(), parsed.channels) {
             all.extend(these);
         }
@@ -138,8 +170,11 @@ pub fn read_all(
         ds.files.push(LoadedFile {
             path: file.path.clone(),
             sha256,
-            rows: parsed.lines.len(),
-            sheet: grid.place.sheet().map(str::to_string),
+            rows,
+            sheet: grid
+                .as_ref()
+                .and_then(|g| g.place.sheet())
+                .map(str::to_string),
         });
     }
     ds.file_units = ds
@@ -151,8 +186,14 @@ pub fn read_all(
     Ok(ds)
 }
 
+/// One file as read: straight into columns, or as a grid.
+enum Read {
+    Plain(ParsedFile),
+    Grid(Result<Grid>),
+}
+
 /// The grid of one file: a workbook sheet, or decoded text split into records.
-fn read_grid(recipe: &Recipe, path: &Path, bytes: &[u8]) -> Result<Grid> {
+pub(super) fn read_grid(recipe: &Recipe, path: &Path, bytes: &[u8]) -> Result<Grid> {
     let spec = &recipe.data;
     let format = spec.format.unwrap_or_else(|| Format::from_extension(path));
     check_keys_apply(recipe, path, format)?;
@@ -165,7 +206,7 @@ fn read_grid(recipe: &Recipe, path: &Path, bytes: &[u8]) -> Result<Grid> {
 }
 
 /// Keys for the other kind of file are an error at the key, naming the file.
-fn check_keys_apply(recipe: &Recipe, path: &Path, format: Format) -> Result<()> {
+pub(super) fn check_keys_apply(recipe: &Recipe, path: &Path, format: Format) -> Result<()> {
     let spec = &recipe.data;
     let (misplaced, kind) = if format.is_spreadsheet() {
         (spec.text_only_keys(), "a workbook")
@@ -199,21 +240,17 @@ fn check_keys_apply(recipe: &Recipe, path: &Path, format: Format) -> Result<()> 
     Ok(())
 }
 
-struct ParsedFile {
-    header_names: Vec<String>,
-    /// Grid column of each variable.
-    cols_idx: Vec<usize>,
-    variables: Vec<String>,
-    present: Vec<bool>,
-    /// Units from the units row, one per variable.
-    units: Vec<Option<String>>,
-    columns: Vec<Vec<f64>>,
-    lines: Vec<usize>,
-    channels: Option<Vec<String>>,
-    groups: Option<Vec<String>>,
-    skipped: Vec<SkippedRow>,
+/// The rows read from one file, with the columns they were read from.
+pub(super) struct ParsedFile {
+    pub chosen: Chosen,
+    pub columns: Vec<Vec<f64>>,
+    /// The file (its index in the data set) and line of each row.
+    pub origins: Vec<RowOrigin>,
+    pub channels: Option<Vec<String>>,
+    pub groups: Option<Vec<String>>,
+    pub skipped: Vec<SkippedRow>,
     /// (line, channel, error) of rows set aside in lenient mode.
-    rejected: Vec<(usize, Option<String>, Error)>,
+    pub rejected: Vec<(usize, Option<String>, Error)>,
 }
 
 /// What is wrong with one cell.
@@ -230,12 +267,9 @@ struct LabelColumn {
     numeric_labels: bool,
 }
 
-/// Choose the wanted columns of a grid and read its rows.
-fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Result<ParsedFile> {
-    let spec = &recipe.data;
-    let place = &grid.place;
-    let path = place.path();
-    let header: &[String] = grid.header.as_deref().unwrap_or(&[]);
+/// The first header name that repeats an earlier one (empty names aside): the columns
+/// (from 0) of its first and second use.
+pub(super) fn first_duplicate(header: &[String]) -> Option<(usize, usize)> {
     // First column of each name, by hash: a search of the columns before each one took
     // minutes on an export with 100,000 columns.
     let mut seen: std::collections::HashMap<&str, usize> = std::collections::HashMap::new();
@@ -244,18 +278,37 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
             continue;
         }
         if let Some(&j) = seen.get(n.as_str()) {
-            return Err(place.locate(
-                RowAt::Header,
-                i,
-                Error::input(format!(
-                    "the header names column `{n}` twice (columns {} and {})",
-                    j + 1,
-                    i + 1
-                ))
-                .help("rename one of the columns so that every header name is unique"),
-            ));
+            return Some((j, i));
         }
         seen.insert(n, i);
+    }
+    None
+}
+
+/// Choose the wanted columns of a grid and read its rows.
+pub(super) fn extract(
+    recipe: &Recipe,
+    grid: &Grid,
+    wanted: &[Wanted],
+    lenient: bool,
+    file: usize,
+) -> Result<ParsedFile> {
+    let spec = &recipe.data;
+    let place = &grid.place;
+    let path = place.path();
+    let header: &[String] = grid.header.as_deref().unwrap_or(&[]);
+    if let Some((j, i)) = first_duplicate(header) {
+        let n = header.get(i).map_or("", String::as_str);
+        return Err(place.locate(
+            RowAt::Header,
+            i,
+            Error::input(format!(
+                "the header names column `{n}` twice (columns {} and {})",
+                j + 1,
+                i + 1
+            ))
+            .help("rename one of the columns so that every header name is unique"),
+        ));
     }
     if grid.rows.is_empty() {
         let what = match place.sheet() {
@@ -274,102 +327,16 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
             .max()
             .unwrap_or(0)
     };
-    let mut indices: Vec<Option<usize>> = Vec::new();
-    for w in wanted {
-        let idx = find_column(
-            recipe,
-            path,
-            header,
-            width,
-            &w.column,
-            &w.variable,
-            w.span.clone(),
-        );
-        indices.push(match idx {
-            Ok(i) => Some(i),
-            Err(_) if w.optional => None,
-            Err(e) => return Err(e),
-        });
-    }
-    let by = match &spec.by {
-        Some(b) => Some(LabelColumn {
-            key: "by",
-            index: find_column(
-                recipe,
-                path,
-                header,
-                width,
-                &b.value,
-                "by",
-                Some(b.span.clone()),
-            )?,
-            numeric_labels: false,
-        }),
-        None => None,
-    };
-    let groups = match &recipe.fit.groups {
-        Some(g) => {
-            // A model variable names its mapped column; anything else is a header name.
-            let column = spec
-                .columns
-                .iter()
-                .find(|(v, _)| v.value == g.value)
-                .map_or_else(
-                    || ColumnRef::Name(g.value.clone()),
-                    |(_, c)| c.value.clone(),
-                );
-            if grid.header.is_none() && matches!(column, ColumnRef::Name(_)) {
-                return Err(recipe
-                    .error_at(
-                        g.span.clone(),
-                        format!(
-                            "`groups = \"{}\"` names a header column, but `header = false`",
-                            g.value
-                        ),
-                    )
-                    .help("without a header row, name a variable mapped in [data] columns"));
-            }
-            Some(LabelColumn {
-                key: "groups",
-                index: find_column(
-                    recipe,
-                    path,
-                    header,
-                    width,
-                    &column,
-                    "groups",
-                    Some(g.span.clone()),
-                )?,
-                numeric_labels: true,
-            })
-        }
-        None => None,
-    };
-    let present: Vec<bool> = indices.iter().map(Option::is_some).collect();
-    let mut variables = Vec::new();
-    let mut header_names = Vec::new();
-    let mut cols_idx = Vec::new();
-    let mut units = Vec::new();
-    for (w, idx) in wanted.iter().zip(&indices) {
-        if let Some(i) = idx {
-            variables.push(w.variable.clone());
-            header_names.push(
-                header
-                    .get(*i)
-                    .filter(|h| !h.is_empty())
-                    .cloned()
-                    .unwrap_or_else(|| format!("column {}", i + 1)),
-            );
-            cols_idx.push(*i);
-            units.push(
-                grid.units
-                    .as_ref()
-                    .and_then(|u| u.get(*i))
-                    .map(|u| unit_text(u))
-                    .filter(|u| !u.is_empty()),
-            );
-        }
-    }
+    let chosen = choose_columns(
+        recipe,
+        path,
+        grid.header.as_deref(),
+        grid.units.as_deref(),
+        width,
+        wanted,
+    )?;
+    let (cols_idx, header_names) = (&chosen.cols_idx, &chosen.header_names);
+    let (by, groups) = (&chosen.by, &chosen.groups);
     let fmt = NumberFormat {
         decimal_comma: spec.decimal_comma,
         thousands: spec.thousands,
@@ -379,7 +346,7 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
     let ahead: Vec<f64> = if is_sheet {
         Vec::new()
     } else {
-        parse_ahead(grid, &cols_idx, fmt)
+        parse_ahead(grid, cols_idx, fmt)
     };
     let per_row = cols_idx.len();
     // Every wanted cell a plain number and no label columns (the common large file): the row
@@ -395,14 +362,18 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         let columns = (0..per_row)
             .map(|k| ahead.iter().skip(k).step_by(per_row).copied().collect())
             .collect();
+        let origins = grid
+            .rows
+            .iter()
+            .map(|r| RowOrigin {
+                file,
+                line: r.number,
+            })
+            .collect();
         return Ok(ParsedFile {
-            header_names,
-            cols_idx,
-            variables,
-            present,
-            units,
+            chosen,
             columns,
-            lines: grid.rows.iter().map(|r| r.number).collect(),
+            origins,
             channels: None,
             groups: None,
             skipped: Vec::new(),
@@ -410,7 +381,7 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         });
     }
     let mut columns: Vec<Vec<f64>> = vec![Vec::with_capacity(n); cols_idx.len()];
-    let mut lines = Vec::with_capacity(n);
+    let mut origins = Vec::with_capacity(n);
     let mut channels = by.as_ref().map(|_| Vec::with_capacity(n));
     let mut group_labels = groups.as_ref().map(|_| Vec::with_capacity(n));
     let mut skipped = Vec::new();
@@ -527,7 +498,10 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         for (col, v) in columns.iter_mut().zip(&row_values) {
             col.push(*v);
         }
-        lines.push(row.number);
+        origins.push(RowOrigin {
+            file,
+            line: row.number,
+        });
         if let (Some(all), Some(c)) = (channels.as_mut(), channel) {
             all.push(c);
         }
@@ -536,17 +510,145 @@ fn extract(recipe: &Recipe, grid: &Grid, wanted: &[Wanted], lenient: bool) -> Re
         }
     }
     Ok(ParsedFile {
+        chosen,
+        columns,
+        origins,
+        channels,
+        groups: group_labels,
+        skipped,
+        rejected,
+    })
+}
+
+/// The columns chosen from a grid: the wanted ones that are present, and the label columns.
+pub(super) struct Chosen {
+    pub header_names: Vec<String>,
+    /// Grid column of each variable.
+    pub cols_idx: Vec<usize>,
+    pub variables: Vec<String>,
+    pub present: Vec<bool>,
+    /// Units from the units row, one per variable.
+    pub units: Vec<Option<String>>,
+    by: Option<LabelColumn>,
+    groups: Option<LabelColumn>,
+}
+
+/// Find the wanted columns, the `by` column and the `groups` column of a grid with the given
+/// header (`grid_header`, None with `header = false`), units row and width (the header's,
+/// or the widest row's without a header).
+pub(super) fn choose_columns(
+    recipe: &Recipe,
+    path: &Path,
+    grid_header: Option<&[String]>,
+    units_row: Option<&[String]>,
+    width: usize,
+    wanted: &[Wanted],
+) -> Result<Chosen> {
+    let spec = &recipe.data;
+    let header: &[String] = grid_header.unwrap_or(&[]);
+    let mut indices: Vec<Option<usize>> = Vec::new();
+    for w in wanted {
+        let idx = find_column(
+            recipe,
+            path,
+            header,
+            width,
+            &w.column,
+            &w.variable,
+            w.span.clone(),
+        );
+        indices.push(match idx {
+            Ok(i) => Some(i),
+            Err(_) if w.optional => None,
+            Err(e) => return Err(e),
+        });
+    }
+    let by = match &spec.by {
+        Some(b) => Some(LabelColumn {
+            key: "by",
+            index: find_column(
+                recipe,
+                path,
+                header,
+                width,
+                &b.value,
+                "by",
+                Some(b.span.clone()),
+            )?,
+            numeric_labels: false,
+        }),
+        None => None,
+    };
+    let groups = match &recipe.fit.groups {
+        Some(g) => {
+            // A model variable names its mapped column; anything else is a header name.
+            let column = spec
+                .columns
+                .iter()
+                .find(|(v, _)| v.value == g.value)
+                .map_or_else(
+                    || ColumnRef::Name(g.value.clone()),
+                    |(_, c)| c.value.clone(),
+                );
+            if grid_header.is_none() && matches!(column, ColumnRef::Name(_)) {
+                return Err(recipe
+                    .error_at(
+                        g.span.clone(),
+                        format!(
+                            "`groups = \"{}\"` names a header column, but `header = false`",
+                            g.value
+                        ),
+                    )
+                    .help("without a header row, name a variable mapped in [data] columns"));
+            }
+            Some(LabelColumn {
+                key: "groups",
+                index: find_column(
+                    recipe,
+                    path,
+                    header,
+                    width,
+                    &column,
+                    "groups",
+                    Some(g.span.clone()),
+                )?,
+                numeric_labels: true,
+            })
+        }
+        None => None,
+    };
+    let present: Vec<bool> = indices.iter().map(Option::is_some).collect();
+    let mut variables = Vec::new();
+    let mut header_names = Vec::new();
+    let mut cols_idx = Vec::new();
+    let mut units = Vec::new();
+    for (w, idx) in wanted.iter().zip(&indices) {
+        if let Some(i) = idx {
+            variables.push(w.variable.clone());
+            header_names.push(
+                header
+                    .get(*i)
+                    .filter(|h| !h.is_empty())
+                    .cloned()
+                    .unwrap_or_else(|| format!("column {}", i + 1)),
+            );
+            cols_idx.push(*i);
+            units.push(
+                units_row
+                    .and_then(|u| u.get(*i))
+                    .map(|u| unit_text(u))
+                    .filter(|u| !u.is_empty()),
+            );
+        }
+    }
+    Ok(Chosen {
         header_names,
         cols_idx,
         variables,
         present,
         units,
-        columns,
-        lines,
-        channels,
-        groups: group_labels,
-        skipped,
-        rejected,
+        by,
+        groups,
     })
 }
 

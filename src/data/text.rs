@@ -22,11 +22,7 @@ struct Records {
 
 /// Split decoded text into a header, an optional units row and data rows.
 pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format) -> Result<Grid> {
-    let delimiter = spec.delimiter.unwrap_or(match format {
-        Format::Tsv => b'\t',
-        _ if spec.decimal_comma => b';',
-        _ => b',',
-    });
+    let delimiter = delimiter(spec, format);
     let skip = match &spec.header_after {
         Some(marker) => marker_line(&original, &marker.value).ok_or_else(|| {
             Error::input(format!(
@@ -115,6 +111,16 @@ pub fn read_text(spec: &DataSpec, path: &Path, original: String, format: Format)
             header_offset,
             units_offset,
         }),
+    })
+}
+
+/// The field delimiter of a text file: the recipe's, else a tab for tsv, `;` with a decimal
+/// comma, `,` otherwise.
+pub fn delimiter(spec: &DataSpec, format: Format) -> u8 {
+    spec.delimiter.unwrap_or(match format {
+        Format::Tsv => b'\t',
+        _ if spec.decimal_comma => b';',
+        _ => b',',
     })
 }
 
