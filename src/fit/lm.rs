@@ -542,18 +542,22 @@ pub fn fit<M: Model + ?Sized>(
     // From STREAMING_QR_FROM rows on only R and the first p entries of Qᵀe are kept.
     let streaming = n >= options.streaming_qr_from;
     let rows = if streaming { p } else { n };
+    let unit = obs.weights.is_none_or(|wt| wt.iter().all(|v| *v == 1.0));
     let mut w = Work {
         sqrt_w: match obs.weights {
+            // The blocked passes do not read √w = 1.
+            _ if unit && streaming => Vec::new(),
             Some(wt) => wt.iter().map(|v| v.sqrt()).collect(),
             None => vec![1.0; n],
         },
-        unit: obs.weights.is_none_or(|wt| wt.iter().all(|v| *v == 1.0)),
+        unit,
         f: vec![0.0; n],
         f_trial: vec![0.0; n],
         e: vec![0.0; n],
         e_trial: vec![0.0; n],
-        jac: DMatrix::zeros(n, p),
-        jac_trial: DMatrix::zeros(n, p),
+        // Zeroed by the allocator (fresh pages cost nothing until the model writes them).
+        jac: DMatrix::from_vec(n, p, vec![0.0; n * p]),
+        jac_trial: DMatrix::from_vec(n, p, vec![0.0; n * p]),
         qr: DMatrix::zeros(rows, p),
         tau: vec![0.0; p],
         qte: vec![0.0; rows],
@@ -585,19 +589,32 @@ pub fn fit<M: Model + ?Sized>(
             .eval(&w.theta, &mut w.f)
             .map_err(LmError::ModelAtStart)?;
     }
-    if let Some(row) = w.f.iter().position(|v| !v.is_finite()) {
+    // (A model that errs on non-finite values has been checked by its evaluation.)
+    let checked = model.finite_or_error();
+    if !checked && let Some(row) = w.f.iter().position(|v| !v.is_finite()) {
         return Err(LmError::NonFiniteAtStart {
             what: "model value",
             row,
         });
     }
-    let mut ssr = weighted_residuals(obs.y, &w.f, &w.sqrt_w, &mut w.e);
+    let (mut ssr, y_sum) = if streaming {
+        blocked_residuals(obs.y, &w.f, &w.sqrt_w, w.unit, &mut w.e)
+    } else {
+        let ssr = weighted_residuals(obs.y, &w.f, &w.sqrt_w, &mut w.e);
+        let y_sum = obs
+            .y
+            .iter()
+            .zip(&w.sqrt_w)
+            .map(|(y, s)| (s * y) * (s * y))
+            .sum::<f64>();
+        (ssr, y_sum)
+    };
     if !both {
         model
             .jacobian(&w.theta, &mut w.jac)
             .map_err(LmError::JacobianAtStart)?;
     }
-    if let Some(k) = w.jac.as_slice().iter().position(|v| !v.is_finite()) {
+    if !checked && let Some(k) = w.jac.as_slice().iter().position(|v| !v.is_finite()) {
         return Err(LmError::NonFiniteAtStart {
             what: "Jacobian",
             row: k % n,
@@ -606,13 +623,7 @@ pub fn fit<M: Model + ?Sized>(
     let mut nfev = 1;
     let mut njev = 1;
     let max_jev = options.max_jacobian_evals(p);
-    let zero_threshold = ZERO_RESIDUAL
-        * obs
-            .y
-            .iter()
-            .zip(&w.sqrt_w)
-            .map(|(y, s)| (s * y) * (s * y))
-            .sum::<f64>();
+    let zero_threshold = ZERO_RESIDUAL * y_sum;
     let mut lambda = options.initial_damping;
     let mut nu = 2.0;
     let mut iterations = 0;
@@ -859,7 +870,12 @@ pub fn fit<M: Model + ?Sized>(
         }
     };
 
-    let residuals: Vec<f64> = obs.y.iter().zip(&w.f).map(|(y, f)| y - f).collect();
+    // With unit weights e = y − f already, to the bit (both passes leave out the factor 1).
+    let residuals: Vec<f64> = if w.unit {
+        std::mem::take(&mut w.e)
+    } else {
+        obs.y.iter().zip(&w.f).map(|(y, f)| y - f).collect()
+    };
     let at_bound = (0..p)
         .map(|j| w.theta[j] == bounds[j].lower || w.theta[j] == bounds[j].upper)
         .collect();
@@ -1009,7 +1025,8 @@ fn second_directional(w: &mut Work, n: usize, p: usize) -> bool {
 /// whose column was zeroed, or a rank-deficient J_w): then nothing usable was written.
 fn projected_second_directional(w: &mut Work, n: usize, p: usize) -> bool {
     let jac = w.jac.as_slice();
-    let (ft, f, sw, v) = (&w.f_trial[..n], &w.f[..n], &w.sqrt_w[..n], &w.v[..p]);
+    // (√w is empty for unit weights on the blocked path, and not read then.)
+    let (ft, f, sw, v) = (&w.f_trial[..n], &w.f[..n], &w.sqrt_w[..], &w.v[..p]);
     let unit = w.unit;
     // Per block of rows (fit::rows, on the rayon pool): whether every f(θ + h·v) is finite,
     // and J_wᵀ·rhs over the block; the blocks' sums are added in block order.
@@ -1081,7 +1098,7 @@ fn projected_rows(
                 *r += c * vj;
             }
         }
-        let (ftp, fp, swp) = (&ft[lo..lo + len], &f[lo..lo + len], &sw[lo..lo + len]);
+        let (ftp, fp) = (&ft[lo..lo + len], &f[lo..lo + len]);
         if unit {
             // √w = 1: rhs = −f_vv and √w·rhs = rhs exactly.
             for ((r, ft), f) in piece.iter_mut().zip(ftp).zip(fp) {
@@ -1089,7 +1106,7 @@ fn projected_rows(
                 *r = -second_difference_of(*ft, *f, *r);
             }
         } else {
-            for (((r, ft), f), s) in piece.iter_mut().zip(ftp).zip(fp).zip(swp) {
+            for (((r, ft), f), s) in piece.iter_mut().zip(ftp).zip(fp).zip(&sw[lo..lo + len]) {
                 finite &= ft.abs() < f64::INFINITY;
                 *r = s * (-s * second_difference_of(*ft, *f, *r));
             }
@@ -1129,7 +1146,7 @@ fn trial_sums(y: &[f64], w: &mut Work) -> Option<TrialSums> {
     let (f, ft, e) = (&w.f[..n], &w.f_trial[..n], &w.e[..n]);
     let et = &mut w.e_trial[..n];
     let (finite, ssr, actual, noise) = if w.blocked {
-        blocked_trial_rows(y, f, ft, &w.sqrt_w[..n], w.unit, e, et)
+        blocked_trial_rows(y, f, ft, &w.sqrt_w, w.unit, e, et)
     } else if w.unit {
         crate::vector::vectorized(
             n,
@@ -1189,13 +1206,9 @@ fn blocked_trial_rows(
     et: &mut [f64],
 ) -> (bool, f64, f64, f64) {
     let parts = super::rows::map_mut(et, |r, et| {
-        let (y, f, ft, sw, e) = (
-            &y[r.clone()],
-            &f[r.clone()],
-            &ft[r.clone()],
-            &sw[r.clone()],
-            &e[r],
-        );
+        let (y, f, ft, e) = (&y[r.clone()], &f[r.clone()], &ft[r.clone()], &e[r.clone()]);
+        // Unit weights: `sw` may be empty, and is not read.
+        let sw = if unit { e } else { &sw[r] };
         if unit {
             crate::vector::vectorized(
                 y.len(),
@@ -1231,6 +1244,41 @@ fn blocked_all_finite(xs: &[f64]) -> bool {
     super::rows::map(xs.len(), |r| all_finite(&xs[r]))
         .into_iter()
         .all(|ok| ok)
+}
+
+/// e = W½·(y − f) and (‖e‖², ‖W½·y‖²) over the blocks of [`super::rows`] on the rayon pool,
+/// each block summed in row order and the blocks in block order; with `unit` `sqrt_w` is not
+/// read (1·x = x).
+fn blocked_residuals(
+    y: &[f64],
+    f: &[f64],
+    sqrt_w: &[f64],
+    unit: bool,
+    e: &mut [f64],
+) -> (f64, f64) {
+    let parts = super::rows::map_mut(&mut e[..y.len()], |r, e| {
+        let (y, f) = (&y[r.clone()], &f[r.clone()]);
+        let (mut ssr, mut yy) = (0.0, 0.0);
+        if unit {
+            for ((e, y), f) in e.iter_mut().zip(y).zip(f) {
+                let v = y - f;
+                *e = v;
+                ssr += v * v;
+                yy += y * y;
+            }
+        } else {
+            for (((e, y), f), s) in e.iter_mut().zip(y).zip(f).zip(&sqrt_w[r]) {
+                let v = s * (y - f);
+                *e = v;
+                ssr += v * v;
+                yy += (s * y) * (s * y);
+            }
+        }
+        (ssr, yy)
+    });
+    parts
+        .into_iter()
+        .fold((0.0, 0.0), |(a, b), (c, d)| (a + c, b + d))
 }
 
 /// e = W½·(y − f); returns ‖e‖².
@@ -1273,7 +1321,10 @@ fn validate(
             bounds.len()
         )));
     }
-    if let Some(row) = obs.y.iter().position(|v| !v.is_finite()) {
+    // (The vectorized test first: the row is looked for only when there is one.)
+    if !all_finite(obs.y)
+        && let Some(row) = obs.y.iter().position(|v| !v.is_finite())
+    {
         return Err(LmError::InvalidData {
             what: "response",
             row,
