@@ -538,6 +538,15 @@ pub fn fit<M: Model + ?Sized>(
     let free_bounds = vec![Bound::FREE; p];
     let bounds = bounds.unwrap_or(&free_bounds);
     validate(p, n, obs, start, bounds)?;
+    // Buffers of n values: on large data sets backed by huge pages where possible (fewer page
+    // faults, the same values), zeroed by the allocator otherwise.
+    let zeroed = |len: usize| {
+        if n >= options.streaming_qr_from {
+            super::rows::zeroed(len)
+        } else {
+            vec![0.0; len]
+        }
+    };
 
     // From STREAMING_QR_FROM rows on only R and the first p entries of Qᵀe are kept.
     let streaming = n >= options.streaming_qr_from;
@@ -551,13 +560,12 @@ pub fn fit<M: Model + ?Sized>(
             None => vec![1.0; n],
         },
         unit,
-        f: vec![0.0; n],
-        f_trial: vec![0.0; n],
-        e: vec![0.0; n],
-        e_trial: vec![0.0; n],
-        // Zeroed by the allocator (fresh pages cost nothing until the model writes them).
-        jac: DMatrix::from_vec(n, p, vec![0.0; n * p]),
-        jac_trial: DMatrix::from_vec(n, p, vec![0.0; n * p]),
+        f: zeroed(n),
+        f_trial: zeroed(n),
+        e: zeroed(n),
+        e_trial: zeroed(n),
+        jac: DMatrix::from_vec(n, p, zeroed(n * p)),
+        jac_trial: DMatrix::from_vec(n, p, zeroed(n * p)),
         qr: DMatrix::zeros(rows, p),
         tau: vec![0.0; p],
         qte: vec![0.0; rows],
