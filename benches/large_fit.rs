@@ -10,7 +10,7 @@
 //! give another recipe as the first argument). Prints median, min and max of several runs
 //! (7, or `FITWRIGHT_BENCH_RUNS`) for each phase and for load + fit, in wall time and in the
 //! process's CPU time (user + system over all threads, `getrusage`): on a shared machine the
-//! CPU time moves far less than the wall time.
+//! CPU time moves far less than the wall time; and the minor page faults of each phase.
 
 use std::hint::black_box;
 use std::path::PathBuf;
@@ -19,13 +19,14 @@ use std::time::{Duration, Instant};
 use fitwright::estimate::{self, TapeModel};
 use fitwright::fit::covariance::{self, UncertaintySettings};
 
-/// User + system CPU time of the whole process so far (every thread).
-fn cpu_time() -> Duration {
+/// User + system CPU time of the whole process so far (every thread), and its minor page
+/// faults (each first touch of a fresh 4 KiB page of memory).
+fn cpu_time() -> (Duration, u64) {
     // SAFETY: getrusage writes one plain-data struct that we own.
     let mut u: libc::rusage = unsafe { std::mem::zeroed() };
     unsafe { libc::getrusage(libc::RUSAGE_SELF, &mut u) };
     let tv = |t: libc::timeval| Duration::new(t.tv_sec as u64, t.tv_usec as u32 * 1000);
-    tv(u.ru_utime) + tv(u.ru_stime)
+    (tv(u.ru_utime) + tv(u.ru_stime), u.ru_minflt as u64)
 }
 
 fn main() {
@@ -57,6 +58,7 @@ fn main() {
         .max(1);
     let (mut loads, mut fits, mut totals) = (Vec::new(), Vec::new(), Vec::new());
     let (mut load_cpu, mut fit_cpu) = (Vec::new(), Vec::new());
+    let (mut load_faults, mut fit_faults) = (Vec::new(), Vec::new());
     let mut last = None;
     for _ in 0..runs {
         let (t0, c0) = (Instant::now(), cpu_time());
@@ -92,8 +94,10 @@ fn main() {
         )
         .expect("the covariance exists");
         let (t2, c2) = (Instant::now(), cpu_time());
-        load_cpu.push(c1 - c0);
-        fit_cpu.push(c2 - c1);
+        load_cpu.push(c1.0 - c0.0);
+        fit_cpu.push(c2.0 - c1.0);
+        load_faults.push(c1.1 - c0.1);
+        fit_faults.push(c2.1 - c1.1);
         loads.push(t1 - t0);
         fits.push(t2 - t1);
         totals.push(t2 - t0);
@@ -120,6 +124,17 @@ fn main() {
     line("load + fit", &mut totals);
     line("load CPU", &mut load_cpu);
     line("fit CPU", &mut fit_cpu);
+    let faults = |what: &str, v: &mut Vec<u64>| {
+        v.sort();
+        println!(
+            "{what:<11} median {:>7}, min {:>7}, max {:>7} page faults",
+            v[v.len() / 2],
+            v[0],
+            v[v.len() - 1]
+        );
+    };
+    faults("load", &mut load_faults);
+    faults("fit", &mut fit_faults);
     let shown: Vec<String> = params
         .iter()
         .zip(&u.std_errors)

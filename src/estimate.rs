@@ -58,7 +58,8 @@ impl<'a> TapeModel<'a> {
             columns,
             n,
             p: free.len(),
-            scratch: RefCell::new(vec![0.0; n]),
+            // Sized on first use: only a Jacobian asked for without the values needs it.
+            scratch: RefCell::new(Vec::new()),
             describe_row,
         })
     }
@@ -119,6 +120,7 @@ impl LmModel for TapeModel<'_> {
         j_out: &mut DMatrix<f64>,
     ) -> std::result::Result<(), ModelError> {
         let mut f = self.scratch.borrow_mut();
+        f.resize(self.n, 0.0);
         self.eval_with_jacobian(params, f.as_mut_slice(), j_out)
     }
 

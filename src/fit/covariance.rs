@@ -385,6 +385,9 @@ impl Default for UncertaintySettings {
 /// (Seber & Wild §2.1; Bates & Watts §2.3 — from memory). (JᵀWJ)⁻¹ comes from a Householder
 /// QR of the column-scaled W½J, (JᵀWJ)⁻¹ = D⁻¹R⁻¹R⁻ᵀD⁻¹, never from inverting JᵀWJ; the rank
 /// test uses max(n,p)·ε·σ_max on the scaled matrix (SPEC §13) and names dependent parameters.
+/// From [`BLOCKED_QR_FROM`] rows R comes from the parallel blocked QR of W½J
+/// ([`dense::streaming_qr`]) and is scaled afterwards (R·D⁻¹ is the R of the scaled matrix,
+/// D from R's column norms): the same figures up to rounding, without an n × p copy.
 ///
 /// Parameters flagged in `at_bound` are treated as fixed: their columns are left out, their
 /// covariance rows/columns are zero and they get no standard error (SPEC §13). The degrees of
@@ -413,7 +416,16 @@ pub fn uncertainty_from_jacobian<S: AsRef<str>>(
         }
     }
     check_weights(weights, n)?;
+    let free: Vec<usize> = (0..p).filter(|&j| !at_bound[j]).collect();
+    // From BLOCKED_QR_FROM rows, R of W½J comes from the parallel blocked QR, whose pass also
+    // checks that the free columns are finite (if not: the checks and the dense QR below).
+    let blocked = (n >= BLOCKED_QR_FROM && !free.is_empty())
+        .then(|| blocked_triangle(jacobian, weights, &free))
+        .flatten();
     for j in 0..p {
+        if blocked.is_some() && !at_bound[j] {
+            continue;
+        }
         if let Some(row) = jacobian.column(j).iter().position(|v| !v.is_finite()) {
             return Err(CovarianceError::NonFinite {
                 what: "Jacobian",
@@ -421,37 +433,44 @@ pub fn uncertainty_from_jacobian<S: AsRef<str>>(
             });
         }
     }
-    let free: Vec<usize> = (0..p).filter(|&j| !at_bound[j]).collect();
-    let mut a = DMatrix::zeros(n, free.len());
-    for (k, &j) in free.iter().enumerate() {
-        for i in 0..n {
-            a[(i, k)] = jacobian[(i, j)] * weights.map_or(1.0, |w| w[i].sqrt());
-        }
-    }
     let name = |j: usize| names[j].as_ref().to_string();
+    let qr_error = |e: ScaledQrError| match e {
+        ScaledQrError::ZeroColumn(k) => CovarianceError::NoEffect {
+            index: free[k],
+            name: name(free[k]),
+        },
+        ScaledQrError::Deficient { columns, condition } => CovarianceError::Dependent {
+            parameters: columns
+                .into_iter()
+                .map(|k| (free[k], name(free[k])))
+                .collect(),
+            condition,
+        },
+    };
     let mut unscaled = DMatrix::zeros(p, p);
     let mut condition = None;
     if !free.is_empty() {
-        let sq = dense::scaled_qr(a).map_err(|e| match e {
-            ScaledQrError::ZeroColumn(k) => CovarianceError::NoEffect {
-                index: free[k],
-                name: name(free[k]),
-            },
-            ScaledQrError::Deficient { columns, condition } => CovarianceError::Dependent {
-                parameters: columns
-                    .into_iter()
-                    .map(|k| (free[k], name(free[k])))
-                    .collect(),
-                condition,
-            },
+        let (g, cond) = match blocked {
+            Some(r) => {
+                let sr = dense::scaled_triangle(r, n).map_err(qr_error)?;
+                (sr.inverse_gram(), sr.condition)
+            }
+            None => {
+                let mut a = DMatrix::zeros(n, free.len());
+                for (k, &j) in free.iter().enumerate() {
+                    for i in 0..n {
+                        a[(i, k)] = jacobian[(i, j)] * weights.map_or(1.0, |w| w[i].sqrt());
+                    }
+                }
+                let sq = dense::scaled_qr(a).map_err(qr_error)?;
+                (sq.inverse_gram(), sq.condition)
+            }
+        };
+        condition = Some(cond);
+        let g = g.ok_or_else(|| CovarianceError::Dependent {
+            parameters: free.iter().map(|&j| (j, name(j))).collect(),
+            condition: cond,
         })?;
-        condition = Some(sq.condition);
-        let g = sq
-            .inverse_gram()
-            .ok_or_else(|| CovarianceError::Dependent {
-                parameters: free.iter().map(|&j| (j, name(j))).collect(),
-                condition: sq.condition,
-            })?;
         for (a_, &i) in free.iter().enumerate() {
             for (b_, &j) in free.iter().enumerate() {
                 unscaled[(i, j)] = g[(a_, b_)];
@@ -462,6 +481,51 @@ pub fn uncertainty_from_jacobian<S: AsRef<str>>(
     let mut u = uncertainty_from_unscaled(&unscaled, params, &estimated, n, ssr, settings)?;
     u.condition = condition;
     Ok(u)
+}
+
+/// Rows from which [`uncertainty_from_jacobian`] takes R of W½J from the parallel blocked QR
+/// of the solver's large-data path ([`dense::streaming_qr`], the same rows as
+/// [`super::lm::STREAMING_QR_FROM`]) rather than from a Householder QR of an n × p copy: no
+/// copy, every core, and the same bits with any number of threads. Below, every reference
+/// test (NIST StRD included) keeps its figures.
+pub const BLOCKED_QR_FROM: usize = super::lm::STREAMING_QR_FROM;
+
+/// R (p × p, p = `free.len()`) of the QR of W½J restricted to the columns `free`, by the
+/// blocked parallel QR; None when an entry of W½J or R is not finite (the caller then finds
+/// the row, or takes the dense path). Only for at-bound parameters are the free columns
+/// copied first.
+fn blocked_triangle(
+    jacobian: &DMatrix<f64>,
+    weights: Option<&[f64]>,
+    free: &[usize],
+) -> Option<DMatrix<f64>> {
+    let (n, p) = jacobian.shape();
+    let all = jacobian.as_slice();
+    let picked: Vec<f64>;
+    let jac = if free.len() == p {
+        all
+    } else {
+        picked = free
+            .iter()
+            .flat_map(|&j| &all[j * n..(j + 1) * n])
+            .copied()
+            .collect();
+        &picked
+    };
+    let sqrt_w: Vec<f64> = weights.map_or_else(Vec::new, |w| w.iter().map(|v| v.sqrt()).collect());
+    let k = free.len();
+    let mut r = DMatrix::zeros(k, k);
+    let finite = dense::streaming_qr(
+        jac,
+        &sqrt_w,
+        weights.is_none(),
+        &[],
+        None,
+        None,
+        &mut r,
+        &mut [],
+    );
+    (finite && r.iter().all(|v| v.is_finite())).then_some(r)
 }
 
 /// Parameter uncertainty from an unscaled covariance (JᵀWJ)⁻¹ already computed, e.g.
@@ -768,5 +832,126 @@ mod tests {
             }
             other => panic!("expected Dependent, got {other:?}"),
         }
+    }
+
+    /// A 60,000-row design (above [`BLOCKED_QR_FROM`]) of three columns, 1, x and a smooth
+    /// bump, with invented weights: the blocked path's input.
+    fn long_design() -> (DMatrix<f64>, Vec<f64>) {
+        let n = 60_000;
+        let j = DMatrix::from_fn(n, 3, |i, k| {
+            let x = i as f64 * 1e-3;
+            match k {
+                0 => 1.0,
+                1 => x,
+                _ => (-0.05 * (x - 30.0).powi(2)).exp(),
+            }
+        });
+        let w = (0..n).map(|i| 1.0 + (i % 5) as f64 * 0.5).collect();
+        (j, w)
+    }
+
+    #[test]
+    fn large_designs_give_the_closed_form_line_figures() {
+        // The straight line of the closed-form test above on 60,000 weighted rows, through
+        // the blocked QR: se(b) = s/√Sxx, se(a) = s·√(1/Σw + x̄²/Sxx) with the weighted mean
+        // x̄ = Σwx/Σw and Sxx = Σw(x − x̄)² (Draper & Smith §1.4 and ch. 9, from memory).
+        let (design, w) = long_design();
+        let j = design.columns(0, 2).into_owned();
+        let x: Vec<f64> = j.column(1).iter().copied().collect();
+        let sw: f64 = w.iter().sum();
+        let xm = x.iter().zip(&w).map(|(x, w)| w * x).sum::<f64>() / sw;
+        let sxx: f64 = x.iter().zip(&w).map(|(x, w)| w * (x - xm).powi(2)).sum();
+        let ssr = 1234.5;
+        let s2 = ssr / (x.len() - 2) as f64;
+        let u = uncertainty_from_jacobian(
+            &j,
+            Some(&w),
+            &[1.0, 2.0],
+            &[false, false],
+            &["a", "b"],
+            ssr,
+            UncertaintySettings::default(),
+        )
+        .unwrap();
+        let se_b = (s2 / sxx).sqrt();
+        let se_a = (s2 * (1.0 / sw + xm * xm / sxx)).sqrt();
+        let close = |a: f64, b: f64| (a - b).abs() <= 1e-11 * b.abs();
+        assert!(close(u.std_errors[1].unwrap(), se_b), "{:?}", u.std_errors);
+        assert!(close(u.std_errors[0].unwrap(), se_a), "{:?}", u.std_errors);
+        assert!(close(u.correlation[(0, 1)], -xm * s2 / sxx / (se_a * se_b)));
+    }
+
+    #[test]
+    fn the_blocked_path_agrees_with_the_dense_qr() {
+        // Same covariance and condition number as the Householder QR of the n × p copy
+        // (dense::scaled_qr, the path below BLOCKED_QR_FROM rows), with a parameter at a
+        // bound left out; relative 1e-10 (the two differ by rounding only).
+        let (j, w) = long_design();
+        for at_bound in [[false, false, false], [false, true, false]] {
+            let u = uncertainty_from_jacobian(
+                &j,
+                Some(&w),
+                &[1.0, 2.0, 3.0],
+                &at_bound,
+                &["a", "b", "c"],
+                50.0,
+                UncertaintySettings::default(),
+            )
+            .unwrap();
+            let free: Vec<usize> = (0..3).filter(|&k| !at_bound[k]).collect();
+            let a = DMatrix::from_fn(j.nrows(), free.len(), |i, k| j[(i, free[k])] * w[i].sqrt());
+            let sq = dense::scaled_qr(a).unwrap();
+            let g = sq.inverse_gram().unwrap();
+            let s2 = 50.0 / (j.nrows() - 3) as f64;
+            for (a_, &r) in free.iter().enumerate() {
+                for (b_, &c) in free.iter().enumerate() {
+                    // Relative to √(CᵢᵢCⱼⱼ): an off-diagonal entry may be near zero.
+                    let want = g[(a_, b_)] * s2;
+                    let size = (g[(a_, a_)] * g[(b_, b_)]).sqrt() * s2;
+                    let got = u.covariance[(r, c)];
+                    assert!((got - want).abs() <= 1e-10 * size, "{got} vs {want}");
+                }
+            }
+            let cond = u.condition.unwrap();
+            assert!((cond - sq.condition).abs() <= 1e-10 * sq.condition);
+        }
+    }
+
+    #[test]
+    fn the_blocked_path_names_bad_rows_and_dependent_parameters() {
+        let (mut j, w) = long_design();
+        // Columns 0 and 2 proportional: named as dependent, as on the dense path.
+        let dependent = DMatrix::from_fn(j.nrows(), 2, |i, k| {
+            if k == 0 { j[(i, 1)] } else { 2.0 * j[(i, 1)] }
+        });
+        let e = uncertainty_from_jacobian(
+            &dependent,
+            Some(&w),
+            &[1.0, 2.0],
+            &[false, false],
+            &["a", "b"],
+            1.0,
+            UncertaintySettings::default(),
+        )
+        .unwrap_err();
+        assert!(matches!(e, CovarianceError::Dependent { .. }), "{e:?}");
+        j[(41_234, 2)] = f64::NAN;
+        let e = uncertainty_from_jacobian(
+            &j,
+            None,
+            &[1.0, 2.0, 3.0],
+            &[false; 3],
+            &["a", "b", "c"],
+            1.0,
+            UncertaintySettings::default(),
+        )
+        .unwrap_err();
+        assert_eq!(
+            e,
+            CovarianceError::NonFinite {
+                what: "Jacobian",
+                row: 41_234
+            }
+        );
     }
 }

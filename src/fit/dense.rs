@@ -218,7 +218,8 @@ fn weighted_block<const UNIT: bool>(
 const QR_BLOCK: usize = 256;
 
 /// R and z = (Qᵀb)[0..p] of the QR factorization of A = J ⊙ √w (J column-major n × p in
-/// `jac`, row i scaled by `s[i]`, columns with `zero[j]` taken as 0), without storing A or Q.
+/// `jac`, n = `jac.len()`/p, row i scaled by `s[i]`, columns with `zero[j]` taken as 0),
+/// without storing A or Q.
 ///
 /// Parallel TSQR (Demmel, Grigori, Hoemmen & Langou, "Communication-optimal parallel and
 /// sequential QR and LU factorizations", SIAM J. Sci. Comput. 34(1), 2012) over the fixed
@@ -228,25 +229,32 @@ const QR_BLOCK: usize = 256;
 /// way, in block order. Backward stable like one Householder QR of [A | b], whose R and first
 /// p entries of Qᵀb it gives up to the signs of R's rows (each row's sign carried by z's
 /// entry); the same bits with any number of threads. R goes to the upper triangle of the
-/// p × p `r` (zeros below), z to `z[..p]`.
+/// p × p `r` (zeros below), z to `z[..p]`; without `b` (R alone, as for the covariance) `z`
+/// is not written.
 ///
-/// With `sums`, the same pass also gives each column's qⱼᵀb and Σᵢ qⱼᵢ² for qⱼ = column j
-/// of A (zero columns included, as unweighted J): into `sums[j] = (qⱼᵀb, Σ qⱼᵢ²)`, each the
-/// block sums of [`weighted_column_sums`]'s four-lane kernel added in block order.
-/// `unit`: every s[i] is 1, and the sums skip the multiplications (1·x = x exactly).
+/// With `sums` (and `b`), the same pass also gives each column's qⱼᵀb and Σᵢ qⱼᵢ² for
+/// qⱼ = column j of A (zero columns included, as unweighted J): into
+/// `sums[j] = (qⱼᵀb, Σ qⱼᵢ²)`, each the block sums of [`weighted_column_sums`]'s four-lane
+/// kernel added in block order.
+/// `unit`: every s[i] is 1, and `s` is not read (the multiplications by 1 are left out,
+/// 1·x = x exactly).
+///
+/// Returns whether every entry of A is finite (checked on each piece while it is in cache;
+/// the solver's model already guarantees it, the covariance relies on it).
 #[allow(clippy::too_many_arguments)]
 pub(crate) fn streaming_qr(
     jac: &[f64],
     s: &[f64],
     unit: bool,
     zero: &[bool],
-    b: &[f64],
+    b: Option<&[f64]>,
     sums: Option<&mut [(f64, f64)]>,
     r: &mut DMatrix<f64>,
     z: &mut [f64],
-) {
-    let n = b.len().min(s.len());
+) -> bool {
     let p = r.ncols();
+    let n = jac.len() / p.max(1);
+    let sums = sums.filter(|_| b.is_some());
     let want_sums = sums.is_some();
     let parts = super::rows::map(n, |rows| {
         vectorized(
@@ -266,18 +274,19 @@ pub(crate) fn streaming_qr(
     }
     // The blocks' triangles, stacked two at a time: rows 0..p the running [R | z], rows
     // p..2p the next block's.
+    let ncols = p + usize::from(b.is_some());
     let ld = 2 * p;
-    let mut work = vec![0.0; ld * (p + 1)];
+    let mut work = vec![0.0; ld * ncols];
     for (k, part) in parts.iter().enumerate() {
         let base = if k == 0 { 0 } else { p };
-        for j in 0..=p {
+        for j in 0..ncols {
             work[j * ld + base..j * ld + base + p].copy_from_slice(&part.tri[j * p..(j + 1) * p]);
         }
         if k > 0 {
             vectorized(
                 ld,
                 #[inline(always)]
-                || reduce_stacked(&mut work, ld, p, p + 1, ld),
+                || reduce_stacked(&mut work, ld, p, ncols, ld),
             );
         }
     }
@@ -286,15 +295,21 @@ pub(crate) fn streaming_qr(
             r[(i, j)] = if i <= j { work[j * ld + i] } else { 0.0 };
         }
     }
-    z[..p].copy_from_slice(&work[p * ld..p * ld + p]);
+    if b.is_some() {
+        z[..p].copy_from_slice(&work[p * ld..p * ld + p]);
+    }
+    parts.iter().all(|part| part.finite)
 }
 
 /// One block's share of [`streaming_qr`].
 struct BlockTriangle {
-    /// [R | z] of the block's rows, p × (p + 1) column-major (leading dimension p).
+    /// [R | z] (or R alone, without b) of the block's rows, p × (p + 1) (or p × p)
+    /// column-major, leading dimension p.
     tri: Vec<f64>,
     /// (qⱼᵀb, Σ qⱼᵢ²) over the block's rows, when asked for.
     sums: Vec<(f64, f64)>,
+    /// Every entry of the block's rows of A is finite.
+    finite: bool,
 }
 
 /// [R | z] of the rows `rows` of A = J ⊙ √w and b (sequential TSQR over [`QR_BLOCK`]-row
@@ -308,59 +323,67 @@ fn block_triangle(
     s: &[f64],
     unit: bool,
     zero: &[bool],
-    b: &[f64],
+    b: Option<&[f64]>,
     want_sums: bool,
     p: usize,
 ) -> BlockTriangle {
     let mut sums = Vec::new();
-    if want_sums {
-        let (sr, br) = (&s[rows.clone()], &b[rows.clone()]);
+    if want_sums && let Some(b) = b {
+        let br = &b[rows.clone()];
         for j in 0..p {
             let c = &jac[j * n + rows.start..j * n + rows.end];
             sums.push(if unit {
                 weighted_sums::<true>(c, c, br, None)
             } else {
-                weighted_sums::<false>(c, sr, br, None)
+                weighted_sums::<false>(c, &s[rows.clone()], br, None)
             });
         }
     }
+    let ncols = p + usize::from(b.is_some());
     let ld = p + QR_BLOCK;
-    let mut work = vec![0.0; ld * (p + 1)];
+    let mut work = vec![0.0; ld * ncols];
+    let mut finite = true;
     let mut lo = rows.start;
     while lo < rows.end {
         let len = QR_BLOCK.min(rows.end - lo);
         let m = p + len;
         for j in 0..p {
             let dest = &mut work[j * ld + p..j * ld + m];
+            let src = &jac[j * n + lo..j * n + lo + len];
             if zero.get(j).copied().unwrap_or(false) {
                 dest.fill(0.0);
+            } else if unit {
+                dest.copy_from_slice(src);
             } else {
-                let src = &jac[j * n + lo..j * n + lo + len];
                 for ((d, c), w) in dest.iter_mut().zip(src).zip(&s[lo..lo + len]) {
                     *d = c * w;
                 }
             }
+            finite &= crate::vector::all_finite(dest);
         }
-        work[p * ld + p..p * ld + m].copy_from_slice(&b[lo..lo + len]);
-        reduce_stacked(&mut work, ld, p, p + 1, m);
+        if let Some(b) = b {
+            work[p * ld + p..p * ld + m].copy_from_slice(&b[lo..lo + len]);
+        }
+        reduce_stacked(&mut work, ld, p, ncols, m);
         lo += len;
     }
-    let mut tri = vec![0.0; p * (p + 1)];
-    for j in 0..=p {
+    let mut tri = vec![0.0; p * ncols];
+    for j in 0..ncols {
         for i in 0..p {
             // Below the diagonal of R the block's reduction leaves zeros.
             tri[j * p + i] = work[j * ld + i];
         }
     }
-    BlockTriangle { tri, sums }
+    BlockTriangle { tri, sums, finite }
 }
 
 /// One step of the blocked QR: the column-major block in `work` (leading dimension `ld`,
 /// `ncols` ≥ p columns; rows 0..p the triangle so far, rows p..m the next rows) is reduced by
 /// Householder reflections of its first p columns (β = −sign(x₀)·‖x‖, as in
 /// [`householder_qr_in_place`]), each applied to the columns after it. Rows 0..p then hold
-/// the new triangle (and, in the columns past p, the first p entries of their reflection);
-/// rows p..m are zero again, ready for the next block.
+/// the new triangle (and, in the columns past p, the first p entries of their reflection),
+/// with zeros below its diagonal; rows p..m hold what is left of the reflections, to be
+/// overwritten by the next block's rows (whatever is read of them next is written first).
 #[inline(always)]
 pub(crate) fn reduce_stacked(work: &mut [f64], ld: usize, p: usize, ncols: usize, m: usize) {
     for j in 0..p {
@@ -382,8 +405,9 @@ pub(crate) fn reduce_stacked(work: &mut [f64], ld: usize, p: usize, ncols: usize
         for k in 0..(ncols - j - 1) {
             reflect(tau, v, &mut right[k * ld + j..k * ld + m]);
         }
-        // The rows below the diagonal start the next block at zero.
-        x[1..].fill(0.0);
+        // The triangle's rows below the diagonal start the next block at zero; rows p..m are
+        // overwritten by the next block (clearing them all cost a memset of the whole block).
+        x[1..p - j].fill(0.0);
     }
 }
 
@@ -900,12 +924,7 @@ impl ScaledQr {
     /// Unscaled (AᵀA)⁻¹ = D⁻¹·R⁻¹·R⁻ᵀ·D⁻¹.
     pub(crate) fn inverse_gram(&self) -> Option<DMatrix<f64>> {
         let mut g = inverse_gram_from_r(&self.qr)?;
-        let p = g.ncols();
-        for j in 0..p {
-            for i in 0..p {
-                g[(i, j)] /= self.scale[i] * self.scale[j];
-            }
-        }
+        unscale(&mut g, &self.scale);
         Some(g)
     }
 
@@ -920,6 +939,66 @@ impl ScaledQr {
             *xj /= d;
         }
         true
+    }
+}
+
+/// The column-scaled triangle of a QR computed elsewhere (the blocked [`streaming_qr`] of a
+/// large matrix), with the rank test done: A = Q·R and D = diag(‖aⱼ‖) give A·D⁻¹ = Q·(R·D⁻¹),
+/// so R·D⁻¹ is the R factor of the scaled matrix, and ‖aⱼ‖ = ‖R·eⱼ‖ (Q has orthonormal
+/// columns). No reflectors: only what the covariance needs.
+#[derive(Debug, Clone)]
+pub(crate) struct ScaledR {
+    /// R·D⁻¹, p × p upper triangular.
+    pub r: DMatrix<f64>,
+    /// Column norms D.
+    pub scale: Vec<f64>,
+    /// 2-norm condition number of A·D⁻¹.
+    pub condition: f64,
+}
+
+/// Scale the columns of the p × p upper-triangular `r` (of an n-row matrix A) to unit norm and
+/// test the rank as [`scaled_qr`] does, with the same errors.
+pub(crate) fn scaled_triangle(mut r: DMatrix<f64>, n: usize) -> Result<ScaledR, ScaledQrError> {
+    let p = r.ncols();
+    let mut scale = vec![0.0; p];
+    for j in 0..p {
+        let d = norm2(r.column(j).as_slice());
+        if d == 0.0 {
+            return Err(ScaledQrError::ZeroColumn(j));
+        }
+        scale[j] = d;
+        for v in r.column_mut(j).iter_mut() {
+            *v /= d;
+        }
+    }
+    match rank_check(&r, n) {
+        RankCheck::Full { condition } => Ok(ScaledR {
+            r,
+            scale,
+            condition,
+        }),
+        RankCheck::Deficient { columns, condition } => {
+            Err(ScaledQrError::Deficient { columns, condition })
+        }
+    }
+}
+
+impl ScaledR {
+    /// Unscaled (AᵀA)⁻¹ = D⁻¹·(R·D⁻¹)⁻¹·(R·D⁻¹)⁻ᵀ·D⁻¹, as [`ScaledQr::inverse_gram`].
+    pub(crate) fn inverse_gram(&self) -> Option<DMatrix<f64>> {
+        let mut g = inverse_gram_from_r(&self.r)?;
+        unscale(&mut g, &self.scale);
+        Some(g)
+    }
+}
+
+/// gᵢⱼ ← gᵢⱼ/(dᵢ·dⱼ).
+fn unscale(g: &mut DMatrix<f64>, d: &[f64]) {
+    let p = g.ncols();
+    for j in 0..p {
+        for i in 0..p {
+            g[(i, j)] /= d[i] * d[j];
+        }
     }
 }
 
@@ -961,7 +1040,7 @@ mod tests {
                 s,
                 unit,
                 &[false; 3],
-                &b,
+                Some(&b),
                 Some(&mut sums),
                 &mut r,
                 &mut z,
@@ -1023,7 +1102,7 @@ mod tests {
                 apply_qt(&a, &tau, &mut qtb);
                 let mut r = DMatrix::zeros(p, p);
                 let mut z = vec![0.0; p];
-                streaming_qr(&jac, &sw, false, &zero, &b, None, &mut r, &mut z);
+                streaming_qr(&jac, &sw, false, &zero, Some(&b), None, &mut r, &mut z);
                 // R_s and R_h both satisfy RᵀR = AᵀA and Rᵀz = Aᵀb (R itself is unique only
                 // up to row signs, and not at all where a column is zero), which is all the
                 // damped solve and the predicted reduction use.

@@ -80,8 +80,9 @@
 //! by block, keeping only R and the first p entries of Qᵀe, which is all the damped solve
 //! uses (TSQR: Demmel, Grigori, Hoemmen & Langou, "Communication-optimal parallel and
 //! sequential QR and LU factorizations", SIAM J. Sci. Comput. 34(1), 2012), and that pass,
-//! the trial sums and the acceleration's projection run in the fixed row blocks of
-//! [`super::rows`] on the rayon pool: the same bits with any number of threads.
+//! the trial sums (in four lanes per block, so that they vectorize) and the acceleration's
+//! projection run in the fixed row blocks of [`super::rows`] on the rayon pool: the same
+//! bits with any number of threads.
 
 use std::fmt;
 
@@ -538,22 +539,34 @@ pub fn fit<M: Model + ?Sized>(
     let free_bounds = vec![Bound::FREE; p];
     let bounds = bounds.unwrap_or(&free_bounds);
     validate(p, n, obs, start, bounds)?;
+    // Buffers of n values: on large data sets backed by huge pages where possible (fewer page
+    // faults, the same values), zeroed by the allocator otherwise.
+    let zeroed = |len: usize| {
+        if n >= options.streaming_qr_from {
+            super::rows::zeroed(len)
+        } else {
+            vec![0.0; len]
+        }
+    };
 
     // From STREAMING_QR_FROM rows on only R and the first p entries of Qᵀe are kept.
     let streaming = n >= options.streaming_qr_from;
     let rows = if streaming { p } else { n };
+    let unit = obs.weights.is_none_or(|wt| wt.iter().all(|v| *v == 1.0));
     let mut w = Work {
         sqrt_w: match obs.weights {
+            // The blocked passes do not read √w = 1.
+            _ if unit && streaming => Vec::new(),
             Some(wt) => wt.iter().map(|v| v.sqrt()).collect(),
             None => vec![1.0; n],
         },
-        unit: obs.weights.is_none_or(|wt| wt.iter().all(|v| *v == 1.0)),
-        f: vec![0.0; n],
-        f_trial: vec![0.0; n],
-        e: vec![0.0; n],
-        e_trial: vec![0.0; n],
-        jac: DMatrix::zeros(n, p),
-        jac_trial: DMatrix::zeros(n, p),
+        unit,
+        f: zeroed(n),
+        f_trial: zeroed(n),
+        e: zeroed(n),
+        e_trial: zeroed(n),
+        jac: DMatrix::from_vec(n, p, zeroed(n * p)),
+        jac_trial: DMatrix::from_vec(n, p, zeroed(n * p)),
         qr: DMatrix::zeros(rows, p),
         tau: vec![0.0; p],
         qte: vec![0.0; rows],
@@ -585,19 +598,32 @@ pub fn fit<M: Model + ?Sized>(
             .eval(&w.theta, &mut w.f)
             .map_err(LmError::ModelAtStart)?;
     }
-    if let Some(row) = w.f.iter().position(|v| !v.is_finite()) {
+    // (A model that errs on non-finite values has been checked by its evaluation.)
+    let checked = model.finite_or_error();
+    if !checked && let Some(row) = w.f.iter().position(|v| !v.is_finite()) {
         return Err(LmError::NonFiniteAtStart {
             what: "model value",
             row,
         });
     }
-    let mut ssr = weighted_residuals(obs.y, &w.f, &w.sqrt_w, &mut w.e);
+    let (mut ssr, y_sum) = if streaming {
+        blocked_residuals(obs.y, &w.f, &w.sqrt_w, w.unit, &mut w.e)
+    } else {
+        let ssr = weighted_residuals(obs.y, &w.f, &w.sqrt_w, &mut w.e);
+        let y_sum = obs
+            .y
+            .iter()
+            .zip(&w.sqrt_w)
+            .map(|(y, s)| (s * y) * (s * y))
+            .sum::<f64>();
+        (ssr, y_sum)
+    };
     if !both {
         model
             .jacobian(&w.theta, &mut w.jac)
             .map_err(LmError::JacobianAtStart)?;
     }
-    if let Some(k) = w.jac.as_slice().iter().position(|v| !v.is_finite()) {
+    if !checked && let Some(k) = w.jac.as_slice().iter().position(|v| !v.is_finite()) {
         return Err(LmError::NonFiniteAtStart {
             what: "Jacobian",
             row: k % n,
@@ -606,13 +632,7 @@ pub fn fit<M: Model + ?Sized>(
     let mut nfev = 1;
     let mut njev = 1;
     let max_jev = options.max_jacobian_evals(p);
-    let zero_threshold = ZERO_RESIDUAL
-        * obs
-            .y
-            .iter()
-            .zip(&w.sqrt_w)
-            .map(|(y, s)| (s * y) * (s * y))
-            .sum::<f64>();
+    let zero_threshold = ZERO_RESIDUAL * y_sum;
     let mut lambda = options.initial_damping;
     let mut nu = 2.0;
     let mut iterations = 0;
@@ -645,7 +665,7 @@ pub fn fit<M: Model + ?Sized>(
                 &w.sqrt_w,
                 w.unit,
                 &w.frozen,
-                &w.e,
+                Some(&w.e),
                 Some(&mut w.sums),
                 &mut w.qr,
                 &mut w.qte,
@@ -689,7 +709,7 @@ pub fn fit<M: Model + ?Sized>(
                     &w.sqrt_w,
                     w.unit,
                     &w.frozen,
-                    &w.e,
+                    Some(&w.e),
                     None,
                     &mut w.qr,
                     &mut w.qte,
@@ -859,7 +879,12 @@ pub fn fit<M: Model + ?Sized>(
         }
     };
 
-    let residuals: Vec<f64> = obs.y.iter().zip(&w.f).map(|(y, f)| y - f).collect();
+    // With unit weights e = y − f already, to the bit (both passes leave out the factor 1).
+    let residuals: Vec<f64> = if w.unit {
+        std::mem::take(&mut w.e)
+    } else {
+        obs.y.iter().zip(&w.f).map(|(y, f)| y - f).collect()
+    };
     let at_bound = (0..p)
         .map(|j| w.theta[j] == bounds[j].lower || w.theta[j] == bounds[j].upper)
         .collect();
@@ -1009,7 +1034,8 @@ fn second_directional(w: &mut Work, n: usize, p: usize) -> bool {
 /// whose column was zeroed, or a rank-deficient J_w): then nothing usable was written.
 fn projected_second_directional(w: &mut Work, n: usize, p: usize) -> bool {
     let jac = w.jac.as_slice();
-    let (ft, f, sw, v) = (&w.f_trial[..n], &w.f[..n], &w.sqrt_w[..n], &w.v[..p]);
+    // (√w is empty for unit weights on the blocked path, and not read then.)
+    let (ft, f, sw, v) = (&w.f_trial[..n], &w.f[..n], &w.sqrt_w[..], &w.v[..p]);
     let unit = w.unit;
     // Per block of rows (fit::rows, on the rayon pool): whether every f(θ + h·v) is finite,
     // and J_wᵀ·rhs over the block; the blocks' sums are added in block order.
@@ -1081,7 +1107,7 @@ fn projected_rows(
                 *r += c * vj;
             }
         }
-        let (ftp, fp, swp) = (&ft[lo..lo + len], &f[lo..lo + len], &sw[lo..lo + len]);
+        let (ftp, fp) = (&ft[lo..lo + len], &f[lo..lo + len]);
         if unit {
             // √w = 1: rhs = −f_vv and √w·rhs = rhs exactly.
             for ((r, ft), f) in piece.iter_mut().zip(ftp).zip(fp) {
@@ -1089,7 +1115,7 @@ fn projected_rows(
                 *r = -second_difference_of(*ft, *f, *r);
             }
         } else {
-            for (((r, ft), f), s) in piece.iter_mut().zip(ftp).zip(fp).zip(swp) {
+            for (((r, ft), f), s) in piece.iter_mut().zip(ftp).zip(fp).zip(&sw[lo..lo + len]) {
                 finite &= ft.abs() < f64::INFINITY;
                 *r = s * (-s * second_difference_of(*ft, *f, *r));
             }
@@ -1122,14 +1148,15 @@ struct TrialSums {
 /// Σ |eᵢ + ẽᵢ|·√wᵢ·(|fᵢ| + |f̃ᵢ|)·16ε (each model value carries a relative rounding error of
 /// a few ε, which enters eᵢ − ẽᵢ = √wᵢ·(f̃ᵢ − fᵢ)). None when a trial value is not finite.
 ///
-/// The three sums run over the rows in order; with unit weights the multiplications by
-/// √wᵢ = 1 are left out (1·x = x exactly).
+/// The three sums run over the rows in order (on the blocked path, in four lanes per block,
+/// see [`trial_lanes`]); with unit weights the multiplications by √wᵢ = 1 are left out
+/// (1·x = x exactly).
 fn trial_sums(y: &[f64], w: &mut Work) -> Option<TrialSums> {
     let n = y.len();
     let (f, ft, e) = (&w.f[..n], &w.f_trial[..n], &w.e[..n]);
     let et = &mut w.e_trial[..n];
     let (finite, ssr, actual, noise) = if w.blocked {
-        blocked_trial_rows(y, f, ft, &w.sqrt_w[..n], w.unit, e, et)
+        blocked_trial_rows(y, f, ft, &w.sqrt_w, w.unit, e, et)
     } else if w.unit {
         crate::vector::vectorized(
             n,
@@ -1177,7 +1204,94 @@ fn trial_rows<const UNIT: bool>(
     (finite, ssr, actual, noise)
 }
 
-/// [`trial_rows`] over the blocks of [`super::rows`] on the rayon pool, the blocks' sums
+/// The sums of [`trial_rows`] over one block of a large data set, each with four partial
+/// sums as in [`dense::dot`]: lane k over rows 4m + k, the n mod 4 rows left over in order,
+/// combined as (s₀ + s₁) + (s₂ + s₃) + tail. The lanes are independent, so the pass runs
+/// four rows per vector operation instead of one row per chain of dependent additions
+/// (a plain row-order sum cannot be vectorized without reordering it). Whether every f̃ᵢ is
+/// finite comes from Σ f̃ᵢ·0, which is 0 exactly when they all are (as
+/// [`crate::vector::all_finite`]).
+#[inline(always)]
+fn trial_lanes<const UNIT: bool>(
+    y: &[f64],
+    f: &[f64],
+    ft: &[f64],
+    sw: &[f64],
+    e: &[f64],
+    et: &mut [f64],
+) -> (bool, f64, f64, f64) {
+    let weigh = |s: f64, x: f64| if UNIT { x } else { s * x };
+    let n = y
+        .len()
+        .min(f.len())
+        .min(ft.len())
+        .min(sw.len())
+        .min(e.len())
+        .min(et.len());
+    let whole = n - n % 4;
+    let (y, f, ft, sw, e, et) = (&y[..n], &f[..n], &ft[..n], &sw[..n], &e[..n], &mut et[..n]);
+    // Behind an optimization barrier, as dense's lane sums (else the loop is laid out for
+    // the final combination and runs one row at a time). No effect on any value.
+    let [zero, ssr, actual, noise] = std::hint::black_box(trial_blocks::<UNIT>(
+        &y[..whole],
+        &f[..whole],
+        &ft[..whole],
+        &sw[..whole],
+        &e[..whole],
+        &mut et[..whole],
+    ));
+    let (mut ssr_t, mut actual_t, mut noise_t, mut zero_t) = (0.0, 0.0, 0.0, 0.0);
+    for i in whole..n {
+        zero_t += ft[i] * 0.0;
+        let (a, b) = (e[i], weigh(sw[i], y[i] - ft[i]));
+        et[i] = b;
+        ssr_t += b * b;
+        actual_t += (a - b) * (a + b);
+        noise_t += weigh(sw[i], (a + b).abs()) * (f[i].abs() + ft[i].abs());
+    }
+    let total = |l: [f64; 4], t: f64| (l[0] + l[1]) + (l[2] + l[3]) + t;
+    (
+        total(zero, zero_t) == 0.0,
+        total(ssr, ssr_t),
+        total(actual, actual_t),
+        total(noise, noise_t),
+    )
+}
+
+/// The four lane sums of [`trial_lanes`] over whole groups of four rows: Σ f̃·0, SSR_trial,
+/// the actual reduction and the unscaled noise, writing ẽ.
+#[inline(always)]
+fn trial_blocks<const UNIT: bool>(
+    y: &[f64],
+    f: &[f64],
+    ft: &[f64],
+    sw: &[f64],
+    e: &[f64],
+    et: &mut [f64],
+) -> [[f64; 4]; 4] {
+    let weigh = |s: f64, x: f64| if UNIT { x } else { s * x };
+    let (mut ssr, mut actual, mut noise, mut zero) = ([0.0_f64; 4], [0.0; 4], [0.0; 4], [0.0; 4]);
+    let rows = y
+        .chunks_exact(4)
+        .zip(f.chunks_exact(4))
+        .zip(ft.chunks_exact(4))
+        .zip(sw.chunks_exact(4))
+        .zip(e.chunks_exact(4))
+        .zip(et.chunks_exact_mut(4));
+    for (((((y, f), ft), sw), a), et) in rows {
+        for k in 0..4 {
+            zero[k] += ft[k] * 0.0;
+            let b = weigh(sw[k], y[k] - ft[k]);
+            et[k] = b;
+            ssr[k] += b * b;
+            actual[k] += (a[k] - b) * (a[k] + b);
+            noise[k] += weigh(sw[k], (a[k] + b).abs()) * (f[k].abs() + ft[k].abs());
+        }
+    }
+    [zero, ssr, actual, noise]
+}
+
+/// [`trial_lanes`] over the blocks of [`super::rows`] on the rayon pool, the blocks' sums
 /// added in block order.
 fn blocked_trial_rows(
     y: &[f64],
@@ -1189,24 +1303,20 @@ fn blocked_trial_rows(
     et: &mut [f64],
 ) -> (bool, f64, f64, f64) {
     let parts = super::rows::map_mut(et, |r, et| {
-        let (y, f, ft, sw, e) = (
-            &y[r.clone()],
-            &f[r.clone()],
-            &ft[r.clone()],
-            &sw[r.clone()],
-            &e[r],
-        );
+        let (y, f, ft, e) = (&y[r.clone()], &f[r.clone()], &ft[r.clone()], &e[r.clone()]);
+        // Unit weights: `sw` may be empty, and is not read.
+        let sw = if unit { e } else { &sw[r] };
         if unit {
             crate::vector::vectorized(
                 y.len(),
                 #[inline(always)]
-                || trial_rows::<true>(y, f, ft, e, e, et),
+                || trial_lanes::<true>(y, f, ft, e, e, et),
             )
         } else {
             crate::vector::vectorized(
                 y.len(),
                 #[inline(always)]
-                || trial_rows::<false>(y, f, ft, sw, e, et),
+                || trial_lanes::<false>(y, f, ft, sw, e, et),
             )
         }
     });
@@ -1231,6 +1341,41 @@ fn blocked_all_finite(xs: &[f64]) -> bool {
     super::rows::map(xs.len(), |r| all_finite(&xs[r]))
         .into_iter()
         .all(|ok| ok)
+}
+
+/// e = W½·(y − f) and (‖e‖², ‖W½·y‖²) over the blocks of [`super::rows`] on the rayon pool,
+/// each block summed in row order and the blocks in block order; with `unit` `sqrt_w` is not
+/// read (1·x = x).
+fn blocked_residuals(
+    y: &[f64],
+    f: &[f64],
+    sqrt_w: &[f64],
+    unit: bool,
+    e: &mut [f64],
+) -> (f64, f64) {
+    let parts = super::rows::map_mut(&mut e[..y.len()], |r, e| {
+        let (y, f) = (&y[r.clone()], &f[r.clone()]);
+        let (mut ssr, mut yy) = (0.0, 0.0);
+        if unit {
+            for ((e, y), f) in e.iter_mut().zip(y).zip(f) {
+                let v = y - f;
+                *e = v;
+                ssr += v * v;
+                yy += y * y;
+            }
+        } else {
+            for (((e, y), f), s) in e.iter_mut().zip(y).zip(f).zip(&sqrt_w[r]) {
+                let v = s * (y - f);
+                *e = v;
+                ssr += v * v;
+                yy += (s * y) * (s * y);
+            }
+        }
+        (ssr, yy)
+    });
+    parts
+        .into_iter()
+        .fold((0.0, 0.0), |(a, b), (c, d)| (a + c, b + d))
 }
 
 /// e = W½·(y − f); returns ‖e‖².
@@ -1273,7 +1418,10 @@ fn validate(
             bounds.len()
         )));
     }
-    if let Some(row) = obs.y.iter().position(|v| !v.is_finite()) {
+    // (The vectorized test first: the row is looked for only when there is one.)
+    if !all_finite(obs.y)
+        && let Some(row) = obs.y.iter().position(|v| !v.is_finite())
+    {
         return Err(LmError::InvalidData {
             what: "response",
             row,
@@ -1450,6 +1598,36 @@ mod tests {
             assert_eq!(bits(&one), bits(&other), "{threads} threads");
             assert_eq!(one.ssr.to_bits(), other.ssr.to_bits());
             assert_eq!(one.function_evals, other.function_evals);
+        }
+    }
+
+    #[test]
+    fn lane_trial_sums_agree_with_the_row_order_sums() {
+        // trial_lanes (the blocked passes) against trial_rows over every tail length: the
+        // same ẽ to the bit, the sums up to their order (relative 1e-13, common practice for
+        // a few thousand terms), and a non-finite trial value found wherever it is.
+        let (m, y) = long_decay();
+        let n = 4099;
+        let f: Vec<f64> = m.x[..n].iter().map(|x| 80.0 * (-0.35 * x).exp()).collect();
+        let ft: Vec<f64> = m.x[..n].iter().map(|x| 79.0 * (-0.34 * x).exp()).collect();
+        let sw: Vec<f64> = (0..n).map(|i| 1.0 + (i % 3) as f64 * 0.5).collect();
+        let e: Vec<f64> = (0..n).map(|i| sw[i] * (y[i] - f[i])).collect();
+        for len in [0, 1, 2, 3, 4, 5, 7, n] {
+            let (mut et1, mut et2) = (vec![0.0; len], vec![0.0; len]);
+            let args = (&y[..len], &f[..len], &ft[..len], &sw[..len], &e[..len]);
+            let a = trial_rows::<false>(args.0, args.1, args.2, args.3, args.4, &mut et1);
+            let b = trial_lanes::<false>(args.0, args.1, args.2, args.3, args.4, &mut et2);
+            assert_eq!(et1, et2);
+            assert!(a.0 && b.0);
+            for (u, v) in [(a.1, b.1), (a.2, b.2), (a.3, b.3)] {
+                assert!((u - v).abs() <= 1e-13 * u.abs(), "{len}: {u} vs {v}");
+            }
+        }
+        for bad in [0, 5, n - 1] {
+            let mut ft = ft.clone();
+            ft[bad] = f64::INFINITY;
+            let mut et = vec![0.0; n];
+            assert!(!trial_lanes::<true>(&y[..n], &f, &ft, &e, &e, &mut et).0);
         }
     }
 
