@@ -48,6 +48,7 @@ pub mod history;
 pub mod index;
 #[cfg_attr(not(test), deny(clippy::indexing_slicing))]
 pub mod init;
+mod memory;
 pub mod metrology;
 pub mod model;
 pub mod pipeline;

@@ -22,7 +22,6 @@
 
 use rayon::prelude::*;
 
-use super::buffer;
 use super::fast_text::{cut, fields, is_blank, line_at, parse_row};
 use super::table::{ParsedFile, check_keys_apply, choose_columns, first_duplicate};
 use super::{RowOrigin, Wanted};
@@ -134,7 +133,10 @@ pub(super) fn read(
 
     // Pass 2: every piece into its stretch of each column (allocated zeroed, so that its
     // pages are first touched by the thread that writes them).
-    let mut columns: Vec<Vec<f64>> = cols.iter().map(|_| buffer::zeroed_f64(lines)).collect();
+    let mut columns: Vec<Vec<f64>> = cols
+        .iter()
+        .map(|_| crate::memory::zeroed_f64(lines))
+        .collect();
     let mut stretches: Vec<Vec<&mut [f64]>> = checked
         .iter()
         .map(|_| Vec::with_capacity(cols.len()))
@@ -176,7 +178,7 @@ pub(super) fn read(
         row += p.rows;
         line += n;
     }
-    let mut origins = buffer::with_capacity(rows);
+    let mut origins = crate::memory::with_capacity(rows);
     if rows == lines {
         // No blank line: row `i` is line `i` after the header.
         let first = head_lines + 1;

@@ -543,7 +543,7 @@ pub fn fit<M: Model + ?Sized>(
     // faults, the same values), zeroed by the allocator otherwise.
     let zeroed = |len: usize| {
         if n >= options.streaming_qr_from {
-            super::rows::zeroed(len)
+            crate::memory::zeroed_f64(len)
         } else {
             vec![0.0; len]
         }

@@ -47,38 +47,6 @@ where
         .collect()
 }
 
-/// A vector of `len` zeros for the rows of a large data set, its memory backed by
-/// transparent huge pages where the system offers them (Linux `madvise(MADV_HUGEPAGE)`;
-/// elsewhere, or when refused, ordinary pages). The allocator hands out fresh zero pages for
-/// large sizes, which the kernel fills at the first write: with 4 KiB pages that is one
-/// page fault per 512 values (some 6,000 for a 1,000,000 × 3 Jacobian, a fifth of a large
-/// fit's time), with 2 MiB pages one per 262,144. The values are the same either way.
-pub(crate) fn zeroed(len: usize) -> Vec<f64> {
-    let mut v = vec![0.0; len];
-    advise_huge_pages(&mut v);
-    v
-}
-
-/// Asks the kernel to back the 2 MiB-aligned part of `v`'s memory with huge pages (advice
-/// only: the contents and the program's behaviour do not change; an error is ignored).
-#[cfg(target_os = "linux")]
-fn advise_huge_pages(v: &mut [f64]) {
-    const HUGE: usize = 2 << 20;
-    let start = v.as_mut_ptr() as usize;
-    let end = start + std::mem::size_of_val(v);
-    let (lo, hi) = (start.next_multiple_of(HUGE), end / HUGE * HUGE);
-    if hi > lo {
-        // SAFETY: [lo, hi) lies inside `v`'s allocation, which we hold mutably; MADV_HUGEPAGE
-        // only changes how the kernel backs those pages, never their contents.
-        unsafe {
-            libc::madvise(lo as *mut libc::c_void, hi - lo, libc::MADV_HUGEPAGE);
-        }
-    }
-}
-
-#[cfg(not(target_os = "linux"))]
-fn advise_huge_pages(_: &mut [f64]) {}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -100,16 +68,6 @@ mod tests {
         });
         assert_eq!(lens, vec![BLOCK, BLOCK, BLOCK, 17]);
         assert!(out.iter().enumerate().all(|(i, v)| *v == i as f64));
-    }
-
-    #[test]
-    fn huge_page_buffers_are_ordinary_zeroed_vectors() {
-        // 5 MiB: at least one whole 2 MiB page inside, whatever the alignment.
-        let mut v = zeroed(5 << 17);
-        assert_eq!(v.len(), 5 << 17);
-        assert!(v.iter().all(|x| x.to_bits() == 0));
-        v.iter_mut().enumerate().for_each(|(i, x)| *x = i as f64);
-        assert!(v.iter().enumerate().all(|(i, x)| *x == i as f64));
     }
 
     #[test]
