@@ -696,9 +696,8 @@ pub fn fit<M: Model + ?Sized>(
                 );
             }
         } else {
-            dense::householder_qr_in_place(&mut w.qr, &mut w.tau);
             w.qte.copy_from_slice(&w.e);
-            dense::apply_qt(&w.qr, &w.tau, &mut w.qte);
+            dense::householder_qr_with_qtb(&mut w.qr, &mut w.tau, &mut w.qte);
         }
 
         // Inner loop: trial steps at increasing damping until one is accepted.
