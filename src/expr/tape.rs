@@ -6,11 +6,15 @@
 //! rows in chunks of [`CHUNK`] so the working registers stay in cache and memory stays
 //! bounded whatever the number of rows. Registers are reused once their value is dead.
 //!
-//! Domain errors are caught without slowing the common case: every instruction's output
-//! chunk is checked for non-finite values (one vectorizable pass), and only a chunk that
-//! has one is re-evaluated row by row with the checked reference evaluator, which names
-//! the row and the sub-expression (and decides, with its short-circuit `&&`/`||`, whether
-//! the value really mattered).
+//! Domain errors are caught without slowing the common case: output chunks are checked
+//! for non-finite values (one vectorizable pass), and only a chunk that has one is
+//! re-evaluated row by row with the checked reference evaluator, which names the row and the
+//! sub-expression (and decides, with its short-circuit `&&`/`||`, whether the value really
+//! mattered). Checked are the outputs, and the operands of operations that can turn a
+//! non-finite value finite again (x/∞, e^(−∞), comparisons, …; see `may_absorb`): a
+//! non-finite value read only by the others (sums, products, ln, sin, …) stays non-finite up
+//! to a checked value in the same row, so the chunks re-evaluated are those of checking every
+//! instruction.
 //!
 //! From [`PARALLEL_FROM`] rows on, blocks of whole chunks run in parallel on the rayon pool
 //! (the batch's pool when called from a batch), with the same values as one pass.
@@ -106,6 +110,9 @@ struct Instr {
     /// output: a scratch made by [`TapeScratch::for_fixed_columns`] keeps it between calls
     /// (see [`MultiTape::run_rows_body`]). Its register is never reused.
     data_only: bool,
+    /// The checked evaluation looks at this output for non-finite values: it is an output, an
+    /// operand an operation may turn finite again, or read by nothing (see [`may_absorb`]).
+    check: bool,
 }
 
 /// Several expressions compiled together; common sub-expressions are computed once.
@@ -363,6 +370,26 @@ impl MultiTape {
         for &r in roots {
             last_use[r as usize] = usize::MAX;
         }
+        // The values the checked evaluation must look at: a non-finite value read only by
+        // operations that keep it non-finite reaches one of these in the same row.
+        let mut check = vec![false; n];
+        let mut readers = vec![0u32; n];
+        for (i, k) in keys.iter().enumerate() {
+            if let (true, Key::Op(op, a, b)) = (is_instr(i), *k) {
+                readers[a as usize] += 1;
+                check[a as usize] |= may_absorb(op, 0);
+                if b != NONE {
+                    readers[b as usize] += 1;
+                    check[b as usize] |= may_absorb(op, 1);
+                }
+            }
+        }
+        for &r in roots {
+            check[r as usize] = true;
+        }
+        for (c, r) in check.iter_mut().zip(&readers) {
+            *c |= *r == 0;
+        }
         let mut reg_of = vec![NONE; n];
         let mut free: Vec<u32> = Vec::new();
         let mut registers = 0u32;
@@ -397,6 +424,7 @@ impl MultiTape {
                 a: sa,
                 b: sb,
                 data_only: data_only(i),
+                check: check[i],
             });
             // Free operands whose last use is this instruction (after choosing `out`,
             // so an instruction never writes a register it reads); the registers of
@@ -621,7 +649,7 @@ impl MultiTape {
                             kept_bad |= !finite;
                             !checked || finite
                         } else {
-                            !checked || bad || all_finite(&out[..len])
+                            !checked || bad || !ins.check || all_finite(&out[..len])
                         };
                         regs[ins.out as usize] = out;
                         finite
@@ -634,7 +662,7 @@ impl MultiTape {
                             operand(ins.b, regs, outs, &self.home, columns, scalars, lo, hi),
                         );
                         exec(ins.op, &mut dest[lo..hi], a, b);
-                        let finite = !checked || bad || all_finite(&dest[lo..hi]);
+                        let finite = !checked || bad || !ins.check || all_finite(&dest[lo..hi]);
                         outs[k] = dest;
                         finite
                     }
@@ -744,6 +772,36 @@ fn parallel_parts(rows: usize) -> usize {
         return 1;
     }
     (rayon::current_num_threads() * 4).min(rows / (PARALLEL_FROM / 2))
+}
+
+/// Whether `op` can give a finite value when its operand `which` (0 the first, 1 the second)
+/// is not finite (±∞ or NaN). False only where IEEE arithmetic and the functions keep it
+/// non-finite whatever the other operand: x ± ∞, x·∞ (∞ or NaN), ∞/x, −∞, √∞, ∞ᵏ (k ≥ 1),
+/// ln, log₁₀, log₂, |·|, sin, cos, tan, asin, acos, sinh, cosh of ±∞ or NaN. Everything else
+/// may absorb it (x/∞ = 0, e^(−∞) = 0, atan(∞) = π/2, comparisons, …) and has its operand
+/// checked, so the checked evaluation still sees every non-finite intermediate value.
+fn may_absorb(op: Op, which: usize) -> bool {
+    match op {
+        Op::Add | Op::Sub | Op::Mul | Op::Neg | Op::Sqrt => false,
+        Op::Div => which == 1,
+        Op::PowI(k) => k < 1,
+        Op::F1(f) => !matches!(
+            f,
+            Func::Ln
+                | Func::Log10
+                | Func::Log2
+                | Func::Sqrt
+                | Func::Abs
+                | Func::Sin
+                | Func::Cos
+                | Func::Tan
+                | Func::Asin
+                | Func::Acos
+                | Func::Sinh
+                | Func::Cosh
+        ),
+        _ => true,
+    }
 }
 
 #[derive(Clone, Copy)]

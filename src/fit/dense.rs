@@ -442,14 +442,26 @@ pub(crate) fn householder_qr_in_place(a: &mut DMatrix<f64>, tau: &mut [f64]) {
     vectorized(
         a.nrows(),
         #[inline(always)]
-        || householder_qr_kernel(a, tau),
+        || householder_qr_kernel(a, tau, None),
+    );
+}
+
+/// [`householder_qr_in_place`] and b ← Qᵀ·b in the same pass: each reflection is applied to
+/// b with the columns it is applied to, so b gets the bits [`apply_qt`] would give it after
+/// the factorization (the same reflections in the same order, the same arithmetic).
+pub(crate) fn householder_qr_with_qtb(a: &mut DMatrix<f64>, tau: &mut [f64], b: &mut [f64]) {
+    vectorized(
+        a.nrows(),
+        #[inline(always)]
+        || householder_qr_kernel(a, tau, Some(b)),
     );
 }
 
 #[inline(always)]
-fn householder_qr_kernel(a: &mut DMatrix<f64>, tau: &mut [f64]) {
+fn householder_qr_kernel(a: &mut DMatrix<f64>, tau: &mut [f64], mut b: Option<&mut [f64]>) {
     let (n, p) = a.shape();
     debug_assert!(n >= p && tau.len() >= p);
+    debug_assert!(b.as_ref().is_none_or(|b| b.len() == n));
     for j in 0..p {
         let alpha = a[(j, j)];
         let tail_norm = {
@@ -472,21 +484,59 @@ fn householder_qr_kernel(a: &mut DMatrix<f64>, tau: &mut [f64]) {
             s[j] = beta;
         }
         tau[j] = t;
-        // Apply Hⱼ to the remaining columns.
-        for k in j + 1..p {
-            let (vj, ck) = column_pair(a, j, k);
-            reflect(t, &vj[j + 1..n], &mut ck[j..n]);
+        // Apply Hⱼ to the remaining columns (and b), up to four at a time.
+        let (left, right) = a.as_mut_slice().split_at_mut((j + 1) * n);
+        let v = &left[j * n + j + 1..(j + 1) * n];
+        let extra = b.as_deref_mut().map(|b| &mut b[j..n]);
+        let mut cols = right.chunks_exact_mut(n).map(|c| &mut c[j..n]).chain(extra);
+        loop {
+            match (cols.next(), cols.next(), cols.next(), cols.next()) {
+                (Some(c0), Some(c1), Some(c2), Some(c3)) => reflect_many(t, v, [c0, c1, c2, c3]),
+                (Some(c0), Some(c1), Some(c2), None) => reflect_many(t, v, [c0, c1, c2]),
+                (Some(c0), Some(c1), None, _) => reflect_many(t, v, [c0, c1]),
+                (Some(c0), None, _, _) => reflect_many(t, v, [c0]),
+                (None, _, _, _) => break,
+            }
         }
     }
 }
 
-/// Borrow column `j` immutably and column `k > j` mutably (column-major storage).
-fn column_pair(a: &mut DMatrix<f64>, j: usize, k: usize) -> (&[f64], &mut [f64]) {
-    debug_assert!(j < k);
-    let n = a.nrows();
-    let data = a.as_mut_slice();
-    let (left, right) = data.split_at_mut(k * n);
-    (&left[j * n..(j + 1) * n], &mut right[..n])
+/// [`reflect`] on `M` columns at once: the same arithmetic for each column (the four lane
+/// sums of [`dot_kernel`], its tail and its combination, then the update), so the same bits,
+/// with the columns' sums in flight together rather than one column's after the other's.
+#[inline(always)]
+fn reflect_many<const M: usize>(tau: f64, v: &[f64], cs: [&mut [f64]; M]) {
+    let len = v.len();
+    let (blocks, tail) = v.as_chunks::<4>();
+    let whole = blocks.len() * 4;
+    let mut acc = [[0.0_f64; 4]; M];
+    {
+        let ys: [&[[f64; 4]]; M] = std::array::from_fn(|c| {
+            let (yb, _) = cs[c][1..1 + len].as_chunks::<4>();
+            &yb[..blocks.len()]
+        });
+        for (i, x) in blocks.iter().enumerate() {
+            for c in 0..M {
+                let y = &ys[c][i];
+                for k in 0..4 {
+                    acc[c][k] += x[k] * y[k];
+                }
+            }
+        }
+    }
+    let acc = lanes(acc);
+    for (c, col) in cs.into_iter().enumerate() {
+        // Each column runs from the diagonal down: its first entry, then v's rows.
+        let Some((c0, rest)) = col.split_first_mut() else {
+            continue;
+        };
+        let rest = &mut rest[..len];
+        let t_sum: f64 = tail.iter().zip(&rest[whole..]).map(|(x, y)| x * y).sum();
+        let d = (acc[c][0] + acc[c][1]) + (acc[c][2] + acc[c][3]) + t_sum;
+        let t = tau * (*c0 + d);
+        *c0 -= t;
+        sub_scaled(rest, t, v);
+    }
 }
 
 /// b ← Qᵀ·b for a factorization from [`householder_qr_in_place`].
@@ -1191,19 +1241,81 @@ mod tests {
                 assert_eq!(base.to_bits(), wide.to_bits(), "dot, n = {n}");
             }
             for n in 40..80 {
-                let a = DMatrix::from_fn(n, 3, |_, _| next());
+                let a = DMatrix::from_fn(n, 6, |_, _| next());
+                let b0: Vec<f64> = (0..n).map(|_| next()).collect();
                 let (mut qa, mut qb) = (a.clone(), a);
-                let (mut ta, mut tb) = (vec![0.0; 3], vec![0.0; 3]);
-                run_baseline(|| householder_qr_kernel(&mut qa, &mut ta));
+                let (mut ta, mut tb) = (vec![0.0; 6], vec![0.0; 6]);
+                let (mut ba, mut bb) = (b0.clone(), b0);
+                run_baseline(|| householder_qr_kernel(&mut qa, &mut ta, Some(&mut ba)));
                 // SAFETY: AVX2 is present (checked above).
-                unsafe { run_avx2(|| householder_qr_kernel(&mut qb, &mut tb)) };
-                let bits = |m: &DMatrix<f64>| m.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
-                assert_eq!(bits(&qa), bits(&qb), "QR, n = {n}");
+                unsafe { run_avx2(|| householder_qr_kernel(&mut qb, &mut tb, Some(&mut bb))) };
+                let bits = |m: &[f64]| m.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
+                assert_eq!(bits(qa.as_slice()), bits(qb.as_slice()), "QR, n = {n}");
                 assert_eq!(ta, tb, "tau, n = {n}");
+                assert_eq!(bits(&ba), bits(&bb), "Qᵀb, n = {n}");
             }
             return;
         }
         println!("no AVX2 on this processor: only the baseline build runs here");
+    }
+
+    /// The QR one reflection and one column at a time with [`reflect`] (the kernel before
+    /// the reflections were applied four columns at once), the reference of the test below.
+    fn qr_column_by_column(a: &mut DMatrix<f64>, tau: &mut [f64]) {
+        let (n, p) = a.shape();
+        for j in 0..p {
+            let alpha = a[(j, j)];
+            let tail_norm = norm2(&a.column(j).as_slice()[j + 1..]);
+            if tail_norm == 0.0 {
+                tau[j] = 0.0;
+                continue;
+            }
+            let beta = -alpha.signum() * alpha.hypot(tail_norm);
+            let t = (beta - alpha) / beta;
+            let inv = 1.0 / (alpha - beta);
+            for v in &mut a.column_mut(j).as_mut_slice()[j + 1..] {
+                *v *= inv;
+            }
+            a[(j, j)] = beta;
+            tau[j] = t;
+            for k in j + 1..p {
+                let (left, right) = a.as_mut_slice().split_at_mut(k * n);
+                reflect(t, &left[j * n + j + 1..(j + 1) * n], &mut right[j..n]);
+            }
+        }
+    }
+
+    #[test]
+    fn qr_with_qtb_gives_the_bits_of_the_qr_then_apply_qt() {
+        // Invented pseudo-random matrices: 1 to 9 columns (groups of four reflections and the
+        // remainders, b among them), rows around the vector and block lengths.
+        let mut uniform = lcg(7);
+        let mut next = || uniform().0 - 0.5;
+        for p in 1..10 {
+            for n in [p, p + 1, p + 3, 31, 32, 33, 61, 250] {
+                if n < p {
+                    continue;
+                }
+                let a = DMatrix::from_fn(n, p, |_, _| next());
+                let b: Vec<f64> = (0..n).map(|_| next()).collect();
+                let (mut q1, mut t1, mut b1) = (a.clone(), vec![0.0; p], b.clone());
+                qr_column_by_column(&mut q1, &mut t1);
+                apply_qt(&q1, &t1, &mut b1);
+                let (mut q0, mut t0) = (a.clone(), vec![0.0; p]);
+                householder_qr_in_place(&mut q0, &mut t0);
+                assert_eq!(q0, q1, "QR alone, n = {n}, p = {p}");
+                let (mut q2, mut t2, mut b2) = (a, vec![0.0; p], b);
+                householder_qr_with_qtb(&mut q2, &mut t2, &mut b2);
+                let bits = |m: &[f64]| m.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
+                assert_eq!(
+                    bits(q1.as_slice()),
+                    bits(q2.as_slice()),
+                    "R, n = {n}, p = {p}"
+                );
+                assert_eq!(bits(&t1), bits(&t2), "tau, n = {n}, p = {p}");
+                assert_eq!(bits(&b1), bits(&b2), "Qᵀb, n = {n}, p = {p}");
+            }
+        }
     }
 
     fn example() -> DMatrix<f64> {

@@ -65,6 +65,12 @@
 //! - not converged: 200·(p + 1) Jacobian evaluations reached, or no acceptable step exists
 //!   (λ overflowed). Non-convergence is a result, not an error.
 //!
+//! After a stop by the step test (small n), the Gauss–Newton step (λ = 0) from the final point
+//! is computed; when it fails the step test itself it is tried, and kept when it lowers SSR
+//! (`refine`): the damped step can pass the step test short of the minimum when rounding noise
+//! has inflated λ (NIST Lanczos1: lowest parameter LRE 9.8 → 10.6, the data's own limit, as
+//! the reference library's; no other NIST fit changed).
+//!
 //! A domain error (or non-finite value) of the model at a trial point rejects the step; at the
 //! start it is an error.
 //!
@@ -225,6 +231,7 @@ pub struct LmOptions {
     geodesic_acceleration: bool,
     speculative_from: usize,
     streaming_qr_from: usize,
+    refine: bool,
 }
 
 impl Default for LmOptions {
@@ -238,6 +245,7 @@ impl Default for LmOptions {
             speculative_from: SPECULATIVE_FROM,
             streaming_qr_from: STREAMING_QR_FROM,
             geodesic_acceleration: true,
+            refine: true,
         }
     }
 }
@@ -306,6 +314,12 @@ impl LmOptions {
     /// [`STREAMING_QR_FROM`]; `usize::MAX` never).
     pub fn with_streaming_qr_from(mut self, rows: usize) -> Self {
         self.streaming_qr_from = rows;
+        self
+    }
+
+    /// The final Gauss–Newton step after a stop by the step test (see `refine`); default on.
+    pub fn with_refinement(mut self, on: bool) -> Self {
+        self.refine = on;
         self
     }
 
@@ -716,9 +730,8 @@ pub fn fit<M: Model + ?Sized>(
                 );
             }
         } else {
-            dense::householder_qr_in_place(&mut w.qr, &mut w.tau);
             w.qte.copy_from_slice(&w.e);
-            dense::apply_qt(&w.qr, &w.tau, &mut w.qte);
+            dense::householder_qr_with_qtb(&mut w.qr, &mut w.tau, &mut w.qte);
         }
 
         // Inner loop: trial steps at increasing damping until one is accepted.
@@ -879,6 +892,18 @@ pub fn fit<M: Model + ?Sized>(
         }
     };
 
+    // Stopped by the step test: one Gauss–Newton step from there, kept when it lowers SSR
+    // (see `refine`). Small n only: the streaming path keeps no reflectors to reuse.
+    if options.refine
+        && matches!(stop, StopReason::RelativeReductionAndStep { .. })
+        && !streaming
+        && let Some(refined) = refine(model, obs, &mut w, bounds, options.xtol, &mut nfev)
+    {
+        ssr = refined;
+        njev += 1;
+        iterations += 1;
+    }
+
     // With unit weights e = y − f already, to the bit (both passes leave out the factor 1).
     let residuals: Vec<f64> = if w.unit {
         std::mem::take(&mut w.e)
@@ -900,6 +925,70 @@ pub fn fit<M: Model + ?Sized>(
         stop,
         at_bound,
     })
+}
+
+/// The Gauss–Newton step δ = R⁻¹·(Qᵀe)[..p] (λ = 0) from the point where the step test stopped
+/// the fit, from the QR of J_w there. When δ itself fails the step test (some
+/// |δⱼ| > xtol·(|θⱼ| + xtol)), the trial point θ + δ (values and Jacobian in one pass)
+/// becomes the result if it lies in the box and lowers SSR, judged by the actual reduction
+/// Σ (eᵢ − ẽᵢ)(eᵢ + ẽᵢ) of [`trial_sums`] (accurate where the two sums agree in most
+/// digits). Returns the new SSR; `nfev` counts the evaluation.
+///
+/// Why: the step test passes once the *damped* step is below xtol, which a λ inflated by
+/// trials the rounding noise rejected also achieves short of the minimum. An undamped step
+/// that passes the test too says the fit had stopped moving, and nothing is evaluated (every
+/// NIST fit but Lanczos1: relative Gauss–Newton steps of 2·10⁻¹² at most). Otherwise the
+/// undamped step of the linear model, which is accurate so close to the solution (Gauss–Newton
+/// converges quadratically on small-residual problems: Madsen, Nielsen & Tingleff, "Methods
+/// for non-linear least squares problems", 2nd ed. 2004, §3.1, from memory), closes the
+/// remaining gap. MINPACK's `lmder` likewise reports the last point only when SSR did not
+/// grow. On NIST Lanczos1, whose data are exact to about 10⁻¹³, the lowest parameter LRE goes
+/// from 9.8 to the figure in docs/conformance.md.
+fn refine<M: Model + ?Sized>(
+    model: &M,
+    obs: &Observations<'_>,
+    w: &mut Work,
+    bounds: &[Bound],
+    xtol: f64,
+    nfev: &mut usize,
+) -> Option<f64> {
+    let (n, p) = w.jac.shape();
+    let sqrt_w = (!w.unit).then_some(&w.sqrt_w[..]);
+    for j in 0..p {
+        let col = &w.jac.as_slice()[j * n..(j + 1) * n];
+        let qcol = &mut w.qr.as_mut_slice()[j * n..(j + 1) * n];
+        dense::weighted_column(col, sqrt_w, &w.e, qcol);
+    }
+    w.qte.copy_from_slice(&w.e);
+    dense::householder_qr_with_qtb(&mut w.qr, &mut w.tau, &mut w.qte);
+    if !dense::solve_upper(&w.qr, &w.qte[..p], &mut w.step) {
+        return None;
+    }
+    // The undamped step passes the step test too: the fit had stopped moving.
+    if (0..p).all(|j| w.step[j].abs() <= xtol * (w.theta[j].abs() + xtol)) {
+        return None;
+    }
+    *nfev += 1;
+    for j in 0..p {
+        let t = w.theta[j] + w.step[j];
+        if !(t.is_finite() && bounds[j].lower <= t && t <= bounds[j].upper) {
+            return None;
+        }
+        w.theta_trial[j] = t;
+    }
+    model
+        .eval_with_jacobian(&w.theta_trial, &mut w.f_trial, &mut w.jac_trial)
+        .ok()?;
+    let trial = trial_sums(obs.y, w)?;
+    let lower = trial.actual > 0.0;
+    if !lower || !(model.finite_or_error() || all_finite(w.jac_trial.as_slice())) {
+        return None;
+    }
+    std::mem::swap(&mut w.f, &mut w.f_trial);
+    std::mem::swap(&mut w.e, &mut w.e_trial);
+    std::mem::swap(&mut w.theta, &mut w.theta_trial);
+    std::mem::swap(&mut w.jac, &mut w.jac_trial);
+    Some(trial.ssr)
 }
 
 /// Evaluate the Jacobian at the trial point (unless `ready`: computed with the values); true
@@ -1651,6 +1740,99 @@ mod tests {
             assert!(g.abs() <= 1e-9 * scale, "gradient component {j}: {g}");
         }
         assert!((out.params[0] - 80.0).abs() < 1.0 && (out.params[1] - 0.35).abs() < 0.02);
+    }
+
+    /// y = Σ aₖ·exp(−bₖ·x), three terms.
+    struct ThreeExp {
+        x: Vec<f64>,
+    }
+
+    impl Model for ThreeExp {
+        fn n_params(&self) -> usize {
+            6
+        }
+        fn eval(&self, t: &[f64], f: &mut [f64]) -> Result<(), ModelError> {
+            for (fi, x) in f.iter_mut().zip(&self.x) {
+                *fi = (0..3).map(|k| t[2 * k] * (-t[2 * k + 1] * x).exp()).sum();
+            }
+            Ok(())
+        }
+        fn jacobian(&self, t: &[f64], j: &mut DMatrix<f64>) -> Result<(), ModelError> {
+            for (i, x) in self.x.iter().enumerate() {
+                for k in 0..3 {
+                    let e = (-t[2 * k + 1] * x).exp();
+                    j[(i, 2 * k)] = e;
+                    j[(i, 2 * k + 1)] = -t[2 * k] * x * e;
+                }
+            }
+            Ok(())
+        }
+    }
+
+    #[test]
+    fn the_final_gauss_newton_step_lowers_ssr_after_a_stop_by_the_step_test() {
+        // Invented: three decays of a mixed sample, 24 readings written to 13 decimals, so
+        // that the residuals at the minimum are rounding-sized and the exponentials nearly
+        // interchangeable (an ill-conditioned, near-zero-residual fit). The fit stops by the
+        // step test with a damped step; the undamped one from there is not small, and taking
+        // it must lower SSR and the scaled gradient (both measured here, not assumed).
+        let m = ThreeExp {
+            x: (0..24).map(|i| f64::from(i) * 0.04).collect(),
+        };
+        let mut y = vec![0.0; 24];
+        m.eval(&[0.12, 1.1, 0.79, 3.2, 1.49, 5.3], &mut y).unwrap();
+        for v in &mut y {
+            *v = (*v * 1e13).round() / 1e13;
+        }
+        let obs = Observations {
+            y: &y,
+            weights: None,
+        };
+        let start = [0.5, 0.8, 0.7, 3.5, 1.2, 5.9];
+        let opts = LmOptions::default();
+        let plain = fit(&m, &obs, &start, None, &opts.clone().with_refinement(false)).unwrap();
+        let refined = fit(&m, &obs, &start, None, &opts).unwrap();
+        assert!(
+            matches!(plain.stop, StopReason::RelativeReductionAndStep { .. }),
+            "{}",
+            plain.stop
+        );
+        assert_eq!(refined.stop, plain.stop);
+        assert_eq!(refined.iterations, plain.iterations + 1);
+        assert_eq!(refined.function_evals, plain.function_evals + 1);
+        assert!(refined.ssr < plain.ssr, "{} ≥ {}", refined.ssr, plain.ssr);
+        let cosine = |o: &LmOutcome| {
+            let enorm = o.residuals.iter().map(|r| r * r).sum::<f64>().sqrt();
+            (0..6)
+                .map(|j| {
+                    let c = o.jacobian.column(j);
+                    let g: f64 = c.iter().zip(&o.residuals).map(|(a, r)| a * r).sum();
+                    g.abs() / (c.norm() * enorm)
+                })
+                .fold(0.0_f64, f64::max)
+        };
+        assert!(
+            cosine(&refined) < cosine(&plain),
+            "{} vs {}",
+            cosine(&refined),
+            cosine(&plain)
+        );
+        // A well-determined fit's undamped step passes the step test: nothing is evaluated.
+        let (d, yd) = decay_data();
+        let obs = Observations {
+            y: &yd,
+            weights: None,
+        };
+        let a = fit(
+            &d,
+            &obs,
+            &[10.0, 1.5],
+            None,
+            &opts.clone().with_refinement(false),
+        )
+        .unwrap();
+        let b = fit(&d, &obs, &[10.0, 1.5], None, &opts).unwrap();
+        assert_eq!(a, b);
     }
 
     #[test]

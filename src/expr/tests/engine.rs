@@ -308,6 +308,26 @@ fn tape_reports_domain_errors_with_row_and_subexpression() {
 }
 
 #[test]
+fn tape_finds_non_finite_values_that_a_later_operation_turns_finite() {
+    // Only outputs and the operands of operations that can absorb a non-finite value are
+    // checked (tape::may_absorb); each of these hides an infinity or NaN from the output.
+    for (src, sub) in [
+        ("exp(-1/(x - 2))", "x - 2"),
+        ("atan(1/(x - 2)) + 1", "x - 2"),
+        ("3/(1/(x - 2))", "x - 2"),
+        ("exp(-(ln(x - 2))^2)", "ln(x - 2)"),
+        ("tanh(5*sqrt(x - 3))", "sqrt(x - 3)"),
+        ("(x + 1)^(-ln(x - 2))", "ln(x - 2)"),
+    ] {
+        let e = eval_err(src, &["x"], &[&[4.0, 2.0, 5.0]], &[], &[]);
+        assert_eq!((e.row, e.subexpr.as_str()), (1, sub), "{src}");
+    }
+    // The same through the sums, products and functions that keep it non-finite.
+    let e = eval_err("2*sin(ln(x - 2)) + x", &["x"], &[&[4.0, 2.0]], &[], &[]);
+    assert_eq!((e.row, e.subexpr.as_str()), (1, "ln(x - 2)"));
+}
+
+#[test]
 fn filters_short_circuit_like_the_reference_evaluator() {
     let f = parse_filter("x > 0 && ln(x) > 1 || x == -5").unwrap();
     let tape = Tape::compile(&f, &Symbols::new(&["x"], &[])).unwrap();
