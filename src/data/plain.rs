@@ -202,15 +202,7 @@ pub(super) fn read(
             }
         }));
     }
-    Some(ParsedFile {
-        chosen,
-        columns,
-        origins,
-        channels: None,
-        groups: None,
-        skipped: Vec::new(),
-        rejected: Vec::new(),
-    })
+    Some(ParsedFile::numbers(chosen, columns, origins))
 }
 
 /// No quote character, no NUL, and no `\r` except before `\n`: the checks of

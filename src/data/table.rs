@@ -253,6 +253,21 @@ pub(super) struct ParsedFile {
     pub rejected: Vec<(usize, Option<String>, Error)>,
 }
 
+impl ParsedFile {
+    /// Rows read as numbers only: no channels, groups, skipped or rejected rows.
+    pub(super) fn numbers(chosen: Chosen, columns: Vec<Vec<f64>>, origins: Vec<RowOrigin>) -> Self {
+        ParsedFile {
+            chosen,
+            columns,
+            origins,
+            channels: None,
+            groups: None,
+            skipped: Vec::new(),
+            rejected: Vec::new(),
+        }
+    }
+}
+
 /// What is wrong with one cell.
 enum Problem {
     Missing(&'static str),
@@ -370,15 +385,7 @@ pub(super) fn extract(
                 line: r.number,
             })
             .collect();
-        return Ok(ParsedFile {
-            chosen,
-            columns,
-            origins,
-            channels: None,
-            groups: None,
-            skipped: Vec::new(),
-            rejected: Vec::new(),
-        });
+        return Ok(ParsedFile::numbers(chosen, columns, origins));
     }
     let mut columns: Vec<Vec<f64>> = vec![Vec::with_capacity(n); cols_idx.len()];
     let mut origins = Vec::with_capacity(n);

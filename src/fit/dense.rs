@@ -944,26 +944,38 @@ pub(crate) enum ScaledQrError {
 /// Scale the columns of `a` to unit norm, factor by Householder QR and test the rank.
 pub(crate) fn scaled_qr(mut a: DMatrix<f64>) -> Result<ScaledQr, ScaledQrError> {
     let (n, p) = a.shape();
-    let mut scale = vec![0.0; p];
-    for j in 0..p {
-        let d = norm2(a.column(j).as_slice());
-        if d == 0.0 {
-            return Err(ScaledQrError::ZeroColumn(j));
-        }
-        scale[j] = d;
-        for v in a.column_mut(j).iter_mut() {
-            *v /= d;
-        }
-    }
+    let scale = unit_columns(&mut a)?;
     let mut tau = vec![0.0; p];
     householder_qr_in_place(&mut a, &mut tau);
-    match rank_check(&a, n) {
-        RankCheck::Full { condition } => Ok(ScaledQr {
-            qr: a,
-            tau,
-            scale,
-            condition,
-        }),
+    let condition = full_rank(&a, n)?;
+    Ok(ScaledQr {
+        qr: a,
+        tau,
+        scale,
+        condition,
+    })
+}
+
+/// Divides each column of `m` by its 2-norm and returns the norms; a zero column is an error.
+fn unit_columns(m: &mut DMatrix<f64>) -> Result<Vec<f64>, ScaledQrError> {
+    let mut scale = vec![0.0; m.ncols()];
+    for (j, d) in scale.iter_mut().enumerate() {
+        *d = norm2(m.column(j).as_slice());
+        if *d == 0.0 {
+            return Err(ScaledQrError::ZeroColumn(j));
+        }
+        for v in m.column_mut(j).iter_mut() {
+            *v /= *d;
+        }
+    }
+    Ok(scale)
+}
+
+/// The condition number of the scaled triangle `r` of an n-row matrix, or the dependent
+/// columns ([`rank_check`]).
+fn full_rank(r: &DMatrix<f64>, n: usize) -> Result<f64, ScaledQrError> {
+    match rank_check(r, n) {
+        RankCheck::Full { condition } => Ok(condition),
         RankCheck::Deficient { columns, condition } => {
             Err(ScaledQrError::Deficient { columns, condition })
         }
@@ -1009,28 +1021,13 @@ pub(crate) struct ScaledR {
 /// Scale the columns of the p × p upper-triangular `r` (of an n-row matrix A) to unit norm and
 /// test the rank as [`scaled_qr`] does, with the same errors.
 pub(crate) fn scaled_triangle(mut r: DMatrix<f64>, n: usize) -> Result<ScaledR, ScaledQrError> {
-    let p = r.ncols();
-    let mut scale = vec![0.0; p];
-    for j in 0..p {
-        let d = norm2(r.column(j).as_slice());
-        if d == 0.0 {
-            return Err(ScaledQrError::ZeroColumn(j));
-        }
-        scale[j] = d;
-        for v in r.column_mut(j).iter_mut() {
-            *v /= d;
-        }
-    }
-    match rank_check(&r, n) {
-        RankCheck::Full { condition } => Ok(ScaledR {
-            r,
-            scale,
-            condition,
-        }),
-        RankCheck::Deficient { columns, condition } => {
-            Err(ScaledQrError::Deficient { columns, condition })
-        }
-    }
+    let scale = unit_columns(&mut r)?;
+    let condition = full_rank(&r, n)?;
+    Ok(ScaledR {
+        r,
+        scale,
+        condition,
+    })
 }
 
 impl ScaledR {
