@@ -1393,15 +1393,15 @@ fn blocked_trial_rows(
 ) -> (bool, f64, f64, f64) {
     let parts = super::rows::map_mut(et, |r, et| {
         let (y, f, ft, e) = (&y[r.clone()], &f[r.clone()], &ft[r.clone()], &e[r.clone()]);
-        // Unit weights: `sw` may be empty, and is not read.
-        let sw = if unit { e } else { &sw[r] };
         if unit {
+            // √w may be empty and is not read: `e` stands in for it.
             crate::vector::vectorized(
                 y.len(),
                 #[inline(always)]
                 || trial_lanes::<true>(y, f, ft, e, e, et),
             )
         } else {
+            let sw = &sw[r];
             crate::vector::vectorized(
                 y.len(),
                 #[inline(always)]
